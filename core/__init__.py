@@ -1,0 +1,11 @@
+"""heatsoak.core: numerics of transient heat diffusion on tetrahedral meshes.
+
+Pure numerics: numpy, scipy and meshio only (pyamg and scikit-sparse when
+installed). Nothing here imports a UI package; ``heatsoak.plugin`` calls
+into this package, never the other way round.
+
+Units are SI throughout (m, s, kg, W, J) except temperatures, which are in
+degrees Celsius (a linear problem: only differences enter the physics).
+"""
+
+__version__ = "0.1.0"
