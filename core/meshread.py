@@ -1,0 +1,301 @@
+"""Mesh intake: any file meshio reads -> a checked :class:`~heatsoak.core.mesh.Mesh`.
+
+:func:`read_mesh` reads the file and turns meshio's cell blocks and tags into
+plain arrays (:mod:`heatsoak.core.meshtags`);
+:func:`build_mesh` checks and repairs those arrays (duplicates, unused nodes,
+inverted cells), finds the boundary, the interfaces between regions and the
+surface groups. Problems the user must fix raise :class:`MeshError`; what was
+repaired or ignored is listed in ``Mesh.warnings``.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import io
+from pathlib import Path
+
+import numpy as np
+from scipy.sparse import coo_matrix
+from scipy.sparse.csgraph import connected_components
+
+from .errors import InputError, MeshError
+from .mesh import TET_EDGES, Mesh
+from .meshtags import split_blocks
+from .surface import feature_groups, interface_faces, match_tagged_faces, pair_rows
+from .topology import all_faces, reorient, signed_volumes
+
+#: Length units a mesh file may be written in, and their size in metres.
+UNITS = {"m": 1.0, "cm": 0.01, "mm": 0.001, "in": 0.0254}
+
+#: Relative to the mean element volume: below ZERO an element is degenerate
+#: (an error), below NEAR_ZERO it is reported.
+ZERO_VOLUME = 1e-12
+NEAR_ZERO_VOLUME = 1e-9
+
+#: Largest distance of a mid-edge node from its edge's midpoint, per edge length.
+MID_NODE_OFFSET = 0.25
+
+
+def unit_scale(unit: str) -> float:
+    """Metres per ``unit``; InputError naming the allowed units otherwise."""
+    try:
+        return UNITS[unit]
+    except (KeyError, TypeError):
+        raise InputError(f"unknown length unit {unit!r}; allowed: {', '.join(UNITS)}") from None
+
+
+def read_mesh(path, unit: str = "m", feature_angle: float = 30.0) -> Mesh:
+    """Read a tetrahedral mesh file in any format meshio reads.
+
+    Parameters
+    ----------
+    path : str or Path
+    unit : {"m", "cm", "mm", "in"}
+        Length unit of the coordinates in the file; points are scaled to metres.
+    feature_angle : float
+        Degrees; splits an untagged boundary into surface groups.
+
+    Raises
+    ------
+    InputError
+        Unknown unit.
+    MeshError
+        Unreadable file, no tetrahedra, broken elements; the message names the file.
+    """
+    scale = unit_scale(unit)
+    path = Path(path)
+    raw, notes = _read_meshio(path)
+    points, cells, region, names, tagged, more = split_blocks(raw, path)
+    return build_mesh(
+        points * scale,
+        cells,
+        region,
+        names,
+        tagged,
+        feature_angle=feature_angle,
+        source=str(path),
+        unit=unit,
+        warnings=(*notes, *more),
+    )
+
+
+def _read_meshio(path: Path):
+    """meshio's reader for ``path``, with every failure turned into MeshError.
+
+    meshio.read() prints and exits the interpreter when a reader fails, so the
+    readers are called directly; what they print is kept as warnings.
+    """
+    import meshio
+    from meshio._helpers import _filetypes_from_path, reader_map
+
+    if not path.is_file():
+        raise MeshError(f"mesh file {path} not found")
+    try:
+        formats = _filetypes_from_path(path)
+    except meshio.ReadError:
+        formats = []
+    formats = sorted(formats, key=lambda f: f != "gmsh")  # .msh is also an ANSYS extension
+    if not formats:
+        known = ", ".join(sorted(meshio.extension_to_filetypes))
+        raise MeshError(f"{path}: unknown mesh file extension {path.suffix!r}; readable: {known}")
+    problems = []
+    for fmt in formats:
+        out = io.StringIO()
+        try:
+            with contextlib.redirect_stdout(out), contextlib.redirect_stderr(out):
+                raw = reader_map[fmt](str(path))
+        except Exception as exc:  # noqa: BLE001 - each reader fails its own way on a bad file
+            problems.append(f"as {fmt}: {type(exc).__name__}: {exc}".strip())
+            continue
+        notes = tuple(f"reader: {line.strip()}" for line in out.getvalue().splitlines() if line.strip())
+        return raw, notes
+    raise MeshError(f"cannot read mesh file {path} (corrupt or truncated?): {'; '.join(problems)}")
+
+
+def build_mesh(
+    points,
+    cells,
+    cell_region,
+    region_names,
+    tagged_faces: dict | None = None,
+    feature_angle: float = 30.0,
+    source: str = "",
+    unit: str = "m",
+    warnings=(),
+) -> Mesh:
+    """Check and repair element arrays and find boundary, interfaces and groups.
+
+    Parameters
+    ----------
+    points : (n_nodes, 3) float, already in metres
+    cells : (n_cells, 4 or 10) int, VTK node order, any orientation
+    cell_region : (n_cells,) int into ``region_names``
+    region_names : sequence of str
+    tagged_faces : dict name -> (k, 3 or 6) int triangles, optional
+        Named surface triangles, matched to boundary faces by vertex set.
+        Without them (or when none lies on the boundary) the boundary is split
+        at edges sharper than ``feature_angle`` degrees.
+    source : str, the file, for messages
+    unit : str, the file's length unit, recorded only
+    warnings : sequence of str, carried into ``Mesh.warnings``
+
+    Returns
+    -------
+    Mesh
+        Duplicate elements and unused nodes removed, inverted elements
+        reoriented, each repair listed in ``warnings``; regions without
+        elements dropped.
+    """
+    where = source or "the mesh"
+    points, cells, cell_region = _as_arrays(points, cells, cell_region, region_names, where)
+    notes = list(warnings)
+    cells, cell_region, original = _drop_duplicates(cells, cell_region, notes)
+    points, cells, tagged_faces = _drop_unused(points, cells, tagged_faces, notes)
+    bad = ~np.isfinite(points).all(axis=1)
+    if bad.any():
+        raise MeshError(
+            f"{bad.sum()} nodes of {where} have NaN or infinite coordinates (first: node {np.argmax(bad)})"
+        )
+    cells = _fix_volumes(points, cells, original, where, notes)
+    if cells.shape[1] == 10:
+        _check_mid_nodes(points, cells, where)
+    used, cell_region = np.unique(cell_region, return_inverse=True)
+    region_names = tuple(region_names[i] for i in used)
+
+    local, keys = all_faces(cells)
+    _, count, pairs = pair_rows(keys)
+    if (count > 2).any():
+        notes.append(
+            f"{(count > 2).sum()} element faces are shared by more than two elements (overlapping elements)"
+        )
+    on_boundary = np.flatnonzero(count == 1)
+    faces, face_cell = local[on_boundary], on_boundary // 4
+    grouping = None
+    if tagged_faces:
+        grouping = match_tagged_faces(keys[on_boundary], tagged_faces, keys[pairs[:, 0]])
+        notes += grouping.notes
+        if grouping.names == ("untagged",):
+            notes.append(
+                f"no tagged triangle lies on the boundary; surfaces split at {feature_angle:g} degree edges"
+            )
+            grouping = None
+    if grouping is None:
+        grouping = feature_groups(points, faces, feature_angle)
+    notes += _bodies(cells, len(points))
+    return Mesh(
+        points=points,
+        cells=cells,
+        cell_region=cell_region.ravel().astype(np.int64),
+        region_names=region_names,
+        faces=faces,
+        face_group=grouping.face_group,
+        group_names=grouping.names,
+        face_cell=face_cell,
+        interfaces=interface_faces(local, pairs, cell_region.ravel()),
+        warnings=tuple(notes),
+        source=source,
+        unit=unit,
+    )
+
+
+def _as_arrays(points, cells, cell_region, region_names, where):
+    """Arrays of the documented shapes, or MeshError naming what is wrong."""
+    points = np.asarray(points, dtype=float)
+    cells = np.asarray(cells)
+    cell_region = np.asarray(cell_region).ravel()
+    if points.ndim != 2 or points.shape[1] != 3:
+        raise MeshError(f"{where}: points have shape {points.shape}, expected (n, 3)")
+    if cells.ndim != 2 or cells.shape[1] not in (4, 10) or not np.issubdtype(cells.dtype, np.integer):
+        raise MeshError(
+            f"{where}: cells have shape {cells.shape} ({cells.dtype}), expected integers (n, 4) or (n, 10)"
+        )
+    if len(cells) == 0:
+        raise MeshError(f"no tetrahedra in {where}")
+    if cells.min() < 0 or cells.max() >= len(points):
+        raise MeshError(
+            f"{where}: an element refers to node {cells.max() if cells.min() >= 0 else cells.min()} "
+            f"but there are only {len(points)} nodes (truncated file?)"
+        )
+    if cell_region.shape != (len(cells),) or cell_region.min() < 0 or cell_region.max() >= len(region_names):
+        raise MeshError(
+            f"{where}: cell regions must be {len(cells)} indices into {len(region_names)} region names"
+        )
+    return points, cells.astype(np.int64), cell_region.astype(np.int64)
+
+
+def _drop_duplicates(cells, cell_region, notes):
+    """Keep the first of elements with the same vertex set."""
+    _, first = np.unique(np.sort(cells[:, :4], axis=1), axis=0, return_index=True)
+    keep = np.sort(first)
+    if len(keep) < len(cells):
+        notes.append(f"dropped {len(cells) - len(keep)} duplicate elements (same nodes as another element)")
+    return cells[keep], cell_region[keep], keep
+
+
+def _drop_unused(points, cells, tagged, notes):
+    """Remove nodes no element uses and renumber the rest."""
+    used = np.zeros(len(points), dtype=bool)
+    used[cells] = True
+    if used.all():
+        return points, cells, tagged
+    notes.append(f"dropped {(~used).sum()} nodes that no element uses")
+    new = np.cumsum(used) - 1
+    new[~used] = -1
+    if tagged:
+        tagged = {k: new[np.asarray(v)] for k, v in tagged.items()}
+        tagged = {k: v[(v >= 0).all(axis=1)] for k, v in tagged.items()}
+    return points[used], new[cells], tagged
+
+
+def _fix_volumes(points, cells, original, where, notes):
+    """Raise on zero-volume elements, report tiny ones, reorient inverted ones."""
+    vol = signed_volumes(points, cells)
+    size = np.abs(vol)
+    mean = size.mean()
+    zero = size <= ZERO_VOLUME * mean
+    if zero.any() or mean == 0:
+        i = int(np.argmin(size))
+        x, y, z = points[cells[i, :4]].mean(axis=0)
+        raise MeshError(
+            f"{max(zero.sum(), 1)} elements of zero volume in {where} (worst: element {original[i]} "
+            f"near ({x:.4g}, {y:.4g}, {z:.4g}) m, volume {size[i]:.3g} m^3, mean {mean:.3g} m^3)"
+        )
+    tiny = size < NEAR_ZERO_VOLUME * mean
+    if tiny.any():
+        i = int(np.argmin(size))
+        notes.append(
+            f"{tiny.sum()} elements of nearly zero volume (worst: element {original[i]}, "
+            f"{size[i] / mean:.2g} of the mean volume)"
+        )
+    negative = vol < 0
+    if negative.any():
+        notes.append(f"reoriented {negative.sum()} inverted elements (negative volume)")
+        cells = reorient(cells, negative)
+    return cells
+
+
+def _check_mid_nodes(points, cells, where):
+    """MeshError when tetra10 mid-edge nodes are far from their edges (wrong node order)."""
+    a, b = points[cells[:, TET_EDGES[:, 0]]], points[cells[:, TET_EDGES[:, 1]]]
+    offset = np.linalg.norm(points[cells[:, 4:]] - 0.5 * (a + b), axis=2)
+    far = (offset > MID_NODE_OFFSET * np.linalg.norm(b - a, axis=2)).any(axis=1)
+    if far.any():
+        raise MeshError(
+            f"{far.sum()} quadratic elements of {where} have mid-edge nodes far from their edges: "
+            "the file's tetra10 node order is not the one heatsoak reads (VTK order)"
+        )
+
+
+def _bodies(cells, n_nodes):
+    """A warning when the elements form more than one connected body."""
+    v = cells[:, :4]
+    graph = coo_matrix(
+        (np.ones(3 * len(v)), (np.repeat(v[:, 0], 3), v[:, 1:].ravel())), shape=(n_nodes, n_nodes)
+    )
+    _, labels = connected_components(graph, directed=False)
+    _, body = np.unique(labels[v[:, 0]], return_inverse=True)
+    sizes = np.sort(np.bincount(body.ravel()))[::-1]
+    if len(sizes) < 2:
+        return []
+    listed = ", ".join(str(s) for s in sizes[:10]) + (", ..." if len(sizes) > 10 else "")
+    return [f"{len(sizes)} disconnected bodies (elements per body: {listed}); no heat flows between them"]
