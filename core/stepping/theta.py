@@ -1,0 +1,228 @@
+"""The theta-method with time-dependent prescribed temperatures.
+
+For nodes split into free (f) and prescribed (p) ones, a step from t_n to
+t_{n+1} = t_n + dt solves
+
+    (M_ff/dt + theta K_ff) T_f^{n+1} =
+        (M_ff/dt - (1-theta) K_ff) T_f^n
+      - M_fp (T_p^{n+1} - T_p^n)/dt - K_fp (theta T_p^{n+1} + (1-theta) T_p^n)
+      + theta F_f^{n+1} + (1-theta) F_f^n,
+
+the theta-method applied to the full system M dT/dt + K T = F with the
+prescribed values and their rate of change entering through the coupling
+blocks of M and K. It is exact in the sense of the theta-method when T_p is
+linear in time over the step (a ramp), since steps land on ramp corners.
+No penalty, no large numbers.
+
+Stability (common practice, no source; see e.g. Zienkiewicz & Taylor,
+The Finite Element Method, vol. 1, ch. on time stepping, from memory):
+theta >= 1/2 is unconditionally stable; theta < 1/2 needs
+dt <= 2 / ((1 - 2 theta) lambda_max) with lambda_max the largest eigenvalue
+of K v = lambda M v on the free nodes.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import scipy.sparse as sp
+import scipy.sparse.linalg as spla
+
+from ..assembly import Assembler
+from ..errors import InputError, StabilityError
+from ..linsolve import choose_solver, make_solver
+from ..operators import build_operators
+from ..problem import Problem, TimeSettings
+from .base import Integrator, step_times
+
+#: Named values of theta.
+THETA_PRESETS = {"forward-euler": 0.0, "crank-nicolson": 0.5, "galerkin": 2.0 / 3.0, "backward-euler": 1.0}
+
+#: Largest number of step sizes whose factorisations are kept.
+CACHE_SIZE = 8
+
+
+def lambda_max(K: sp.spmatrix, M) -> float:
+    """Largest eigenvalue of K v = lambda M v [1/s] (M a sparse matrix or a diagonal array)."""
+    n = K.shape[0]
+    if n == 0:
+        return 0.0
+    if not sp.issparse(M):
+        s = 1.0 / np.sqrt(M)
+        A = sp.diags(s) @ K @ sp.diags(s)
+        if n < 50:
+            return float(np.linalg.eigvalsh(A.toarray())[-1])
+        return float(spla.eigsh(A, k=1, which="LA", tol=1e-6, return_eigenvectors=False)[0])
+    if n < 50:
+        import scipy.linalg as sla
+
+        return float(sla.eigh(K.toarray(), M.toarray(), eigvals_only=True)[-1])
+    Minv = spla.factorized(sp.csc_matrix(M))
+    op = spla.LinearOperator(K.shape, matvec=lambda x: Minv(K @ x), dtype=float)
+    # M^-1 K is self-adjoint in the M inner product; a plain Arnoldi on it converges to the top eigenvalue.
+    return float(np.max(spla.eigs(op, k=1, which="LR", tol=1e-6, return_eigenvectors=False).real))
+
+
+class ThetaMethod(Integrator):
+    """Theta-method time stepper of a :class:`Problem`.
+
+    Parameters
+    ----------
+    problem : Problem
+    time : TimeSettings
+    progress : callable, optional
+        Called with a :class:`~heatsoak.core.stepping.base.Progress` after every step.
+    assembler : Assembler, optional
+        To reuse a mesh's cached pattern across runs.
+
+    Attributes
+    ----------
+    factorizations : int
+        Number of system matrices factorised (or preconditioners built).
+    """
+
+    def __init__(self, problem: Problem, time: TimeSettings, progress=None, assembler: Assembler | None = None):
+        super().__init__(time.end, progress)
+        theta = float(time.theta)
+        if not 0.0 <= theta <= 1.0:
+            raise InputError(f"theta must be in [0, 1], got {theta}")
+        if not (time.step > 0 and time.end > 0):
+            raise InputError(f"time step and end must be positive, got step={time.step}, end={time.end}")
+        self.problem, self.settings, self.theta = problem, time, theta
+        self.ops = build_operators(problem, time.mass, assembler)
+        f, p = self.ops.free, self.ops.fixed
+        K, M = self.ops.stiffness, self.ops.mass
+        self._Kff, self._Kfp = K[f][:, f].tocsr(), K[f][:, p].tocsr()
+        if self.ops.lumped:
+            self._Mff, self._Mfp = M[f], None
+        else:
+            self._Mff, self._Mfp = M[f][:, f].tocsr(), M[f][:, p].tocsr()
+        self.solver_name, self.solver_reason = choose_solver(len(f), time.solver)
+        self._solvers = {}
+        self.factorizations = 0
+        self.dt_critical = None
+        if theta < 0.5:
+            self._check_stability()
+        start = time.start_steps
+        if start is None:
+            start = 4 if 0.5 <= theta < 1.0 else 0
+        self.start_steps = int(start)
+        self._energy = dict(stored_J=0.0, boundary_in_J=0.0, source_in_J=0.0, dirichlet_in_J=0.0)
+
+    # -- setup -------------------------------------------------------------
+    def _check_stability(self):
+        lam = lambda_max(self._Kff, self._Mff)
+        self.dt_critical = np.inf if lam <= 0 else 2.0 / ((1.0 - 2.0 * self.theta) * lam)
+        if self.settings.step > self.dt_critical * (1 + 1e-9):
+            raise StabilityError(
+                f"time step {self.settings.step:g} s is above the stability limit {self.dt_critical:.4g} s of "
+                f"theta = {self.theta:g} on this mesh (largest eigenvalue {lam:.4g} 1/s); use step <= "
+                f"{self.dt_critical:.4g} s, or theta >= 0.5, which has no step limit"
+            )
+
+    def initial_state(self) -> np.ndarray:
+        T = self.ops.initial.copy()
+        T[self.ops.fixed] = self.ops.fixed_values(0.0)
+        self._T0 = T.copy()
+        return T
+
+    def times(self) -> np.ndarray:
+        dt = self.settings.step
+        marks = list(self.ops.breakpoints()) + list(self.settings.output_times)
+        grid = step_times(self.end, dt, marks)
+        if self.start_steps > 0:
+            # Rannacher start: the first steps are replaced by backward-Euler half steps.
+            n_full = (self.start_steps + 1) // 2
+            first = grid[:n_full]
+            lead = [0.0] + list(first)
+            halves = [0.5 * (a + b) for a, b in zip(lead[:-1], lead[1:])]
+            extra = np.array(sorted(halves + list(first)))[: self.start_steps]
+            grid = np.unique(np.concatenate([extra, grid]))
+            self._start_until = float(extra[-1])
+        else:
+            self._start_until = -1.0
+        return grid
+
+    def _solver(self, dt: float, theta: float):
+        key = (round(dt, 12), theta)
+        s = self._solvers.get(key)
+        if s is None:
+            if self.ops.lumped:
+                A = sp.diags(self._Mff / dt) + theta * self._Kff if theta > 0 else sp.diags(self._Mff / dt)
+            else:
+                A = self._Mff / dt + theta * self._Kff
+            s = make_solver(sp.csr_matrix(A), self.solver_name)
+            self.factorizations += 1
+            if len(self._solvers) >= CACHE_SIZE:
+                self._solvers.pop(next(iter(self._solvers)))
+            self._solvers[key] = s
+        return s
+
+    # -- one step ------------------------------------------------------------
+    def _mff(self, x):
+        return self._Mff * x if self.ops.lumped else self._Mff @ x
+
+    def _advance(self, t: float, t_new: float, T: np.ndarray) -> np.ndarray:
+        ops, f, p = self.ops, self.ops.free, self.ops.fixed
+        dt = t_new - t
+        theta = 1.0 if t_new <= self._start_until + 1e-12 * self.end else self.theta
+        Tp0, Tp1 = T[p], ops.fixed_values(t_new)
+        F0, F1 = ops.load(t), ops.load(t_new)
+        Ftheta = theta * F1 + (1.0 - theta) * F0
+        Tf = T[f]
+        rhs = self._mff(Tf) / dt - (1.0 - theta) * (self._Kff @ Tf) + Ftheta[f]
+        if p.size:
+            Tp_th = theta * Tp1 + (1.0 - theta) * Tp0
+            rhs -= self._Kfp @ Tp_th
+            if self._Mfp is not None:
+                rhs -= self._Mfp @ ((Tp1 - Tp0) / dt)
+        solver = self._solver(dt, theta)
+        # solve for the increment so iterative solvers stop relative to the change per step
+        A_Tf = self._mff(Tf) / dt + theta * (self._Kff @ Tf)
+        dTf = solver.solve(rhs - A_Tf, x0=getattr(self, "_last_dTf", None))
+        self._last_dTf = dTf
+        T_new = T.copy()
+        T_new[f] = Tf + dTf
+        T_new[p] = Tp1
+        self._account(T, T_new, dt, theta, t, t_new)
+        return T_new
+
+    def _account(self, T0, T1, dt, theta, t, t_new):
+        """Add this step's heat to the energy balance (all nodes, theta-weighted)."""
+        ops = self.ops
+        Tth = theta * T1 + (1 - theta) * T0
+        dE = ops.mass_apply(T1 - T0)
+        Fb = theta * ops.load(t_new, "boundary") + (1 - theta) * ops.load(t, "boundary")
+        Fs = theta * ops.load(t_new, "source") + (1 - theta) * ops.load(t, "source")
+        r = dE / dt + ops.stiffness @ Tth - Fb - Fs
+        self._energy["stored_J"] += dE.sum()
+        self._energy["boundary_in_J"] += dt * (Fb.sum() - (ops.convection @ Tth).sum())
+        self._energy["source_in_J"] += dt * Fs.sum()
+        self._energy["dirichlet_in_J"] += dt * r[ops.fixed].sum()
+
+    # -- reports ---------------------------------------------------------------
+    def energy(self) -> dict:
+        """Heat stored versus heat that entered, since t = 0 [J].
+
+        ``boundary_in_J`` is heat flux plus convection, ``dirichlet_in_J`` the
+        heat that flowed in through prescribed-temperature nodes.
+        """
+        e = dict(self._energy)
+        inflow = e["boundary_in_J"] + e["source_in_J"] + e["dirichlet_in_J"]
+        e["imbalance_J"] = e["stored_J"] - inflow
+        scale = max(abs(e["stored_J"]), abs(inflow), 1e-300)
+        e["relative_imbalance"] = abs(e["imbalance_J"]) / scale
+        return e
+
+    def report(self) -> dict:
+        """What was run: solver, why, factorisations, steps, stability limit."""
+        return dict(
+            solver=self.solver_name,
+            reason=self.solver_reason,
+            factorizations=self.factorizations,
+            steps=self.step_count,
+            theta=self.theta,
+            mass=self.settings.mass,
+            start_steps=self.start_steps,
+            dt_critical=self.dt_critical,
+            warnings=list(self.ops.warnings),
+        )
