@@ -105,7 +105,9 @@ def _read_meshio(path: Path):
             with contextlib.redirect_stdout(out), contextlib.redirect_stderr(out):
                 raw = reader_map[fmt](str(path))
         except Exception as exc:  # noqa: BLE001 - each reader fails its own way on a bad file
-            problems.append(f"as {fmt}: {type(exc).__name__}: {exc}".strip())
+            problems.append(
+                f"as {fmt}: {type(exc).__name__}: {exc}" if str(exc) else f"not readable as {fmt}"
+            )
             continue
         notes = tuple(f"reader: {line.strip()}" for line in out.getvalue().splitlines() if line.strip())
         return raw, notes

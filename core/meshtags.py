@@ -55,7 +55,7 @@ def split_blocks(raw, path: Path):
     warnings : tuple of str
     """
     census = [(b.type, len(b.data)) for b in raw.cells]
-    vol = [i for i, b in enumerate(raw.cells) if b.type in VOLUME_TYPES]
+    vol = [i for i, b in enumerate(raw.cells) if b.type in VOLUME_TYPES and len(b.data)]
     if not vol:
         hint = ""
         if path.suffix == ".msh":
@@ -69,8 +69,8 @@ def split_blocks(raw, path: Path):
             f"{path} mixes linear and quadratic tetrahedra ({_census([c for c in census if c[0] in kinds])}); "
             "export all elements with one order"
         )
-    faces = [i for i, b in enumerate(raw.cells) if b.type in FACE_TYPES]
-    ignored = [c for i, c in enumerate(census) if i not in vol and i not in faces]
+    faces = [i for i, b in enumerate(raw.cells) if b.type in FACE_TYPES and len(b.data)]
+    ignored = [c for i, c in enumerate(census) if i not in vol and i not in faces and c[1]]
     warnings = []
     if ignored:
         warnings.append(f"ignored cells that are neither tetrahedra nor triangles: {_census(ignored)}")
