@@ -24,9 +24,7 @@ from .elements import tet_basis
 from .errors import ProbeError
 from .geometry import p1_gradients
 from .mesh import Mesh
-
-#: Metres per length unit, for messages in the user's unit.
-UNIT_SCALE = {"m": 1.0, "cm": 0.01, "mm": 0.001, "in": 0.0254}
+from .meshread import UNITS
 
 #: Barycentric tolerance for points on faces, edges and vertices.
 TOL = 1e-8
@@ -113,7 +111,7 @@ def distance_to_boundary(mesh: Mesh, points) -> np.ndarray:
 
 
 def _fmt_point(p, unit: str) -> str:
-    s = UNIT_SCALE[unit]
+    s = UNITS[unit]
     return "(" + ", ".join(f"{x / s:g}" for x in p) + f") {unit}"
 
 
@@ -146,7 +144,7 @@ class ProbeSet:
         out = np.flatnonzero(self.cells < 0)
         if out.size:
             dist = distance_to_boundary(mesh, self.points[out])
-            s = UNIT_SCALE[unit]
+            s = UNITS[unit]
             lines = [f"probe {self.names[i]!r} at {_fmt_point(self.points[i], unit)} is outside the mesh, "
                      f"{d / s:.4g} {unit} from its surface" for i, d in zip(out, dist)]
             err = ProbeError("; ".join(lines))

@@ -276,7 +276,7 @@ _RAMP_KEYS = ("start", "end", "at", "over")
 
 def _error(key: str, message: str) -> ScheduleError:
     err = ScheduleError(f"{key}: {message}")
-    err.key = key
+    err.key, err.detail = key, message
     return err
 
 
@@ -338,7 +338,8 @@ def parse_schedule(value, key: str, base_dir=None) -> Schedule:
     Raises
     ------
     ScheduleError
-        With attribute ``key``, the dotted key of the offending entry.
+        With attributes ``key``, the dotted key of the offending entry, and
+        ``detail``, the message without the key.
     """
     if _is_number(value):
         if not math.isfinite(value):

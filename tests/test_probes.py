@@ -7,7 +7,6 @@ polynomial's value (common practice, no source).
 
 import numpy as np
 import pytest
-
 from heatsoak.core.errors import ProbeError
 from heatsoak.core.generate import box_mesh
 from heatsoak.core.probes import ProbeSet, distance_to_boundary, locate

@@ -2,7 +2,6 @@
 
 import numpy as np
 import pytest
-
 from heatsoak.core.generate import box_mesh
 from heatsoak.core.probes import ProbeSet
 from heatsoak.core.results import Recorder, RegionStats, first_crossing

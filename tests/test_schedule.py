@@ -2,7 +2,6 @@
 
 import numpy as np
 import pytest
-
 from heatsoak.core.errors import ScheduleError
 from heatsoak.core.schedule import Constant, Ramp, Table, parse_schedule, read_table_csv
 
