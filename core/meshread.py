@@ -21,7 +21,7 @@ from scipy.sparse.csgraph import connected_components
 from .errors import InputError, MeshError
 from .mesh import TET_EDGES, Mesh
 from .meshtags import split_blocks
-from .surface import feature_groups, interface_faces, match_tagged_faces, pair_rows
+from .surface import feature_groups, interface_faces, match_tagged_faces, pair_rows, unique_rows
 from .topology import all_faces, reorient, signed_volumes
 
 #: Length units a mesh file may be written in, and their size in metres.
@@ -227,7 +227,7 @@ def _as_arrays(points, cells, cell_region, region_names, where):
 
 def _drop_duplicates(cells, cell_region, notes):
     """Keep the first of elements with the same vertex set."""
-    _, first = np.unique(np.sort(cells[:, :4], axis=1), axis=0, return_index=True)
+    first, _, _ = unique_rows(np.sort(cells[:, :4], axis=1))
     keep = np.sort(first)
     if len(keep) < len(cells):
         notes.append(f"dropped {len(cells) - len(keep)} duplicate elements (same nodes as another element)")
@@ -295,8 +295,8 @@ def _bodies(cells, n_nodes):
         (np.ones(3 * len(v)), (np.repeat(v[:, 0], 3), v[:, 1:].ravel())), shape=(n_nodes, n_nodes)
     )
     _, labels = connected_components(graph, directed=False)
-    _, body = np.unique(labels[v[:, 0]], return_inverse=True)
-    sizes = np.sort(np.bincount(body.ravel()))[::-1]
+    sizes = np.bincount(labels[v[:, 0]])
+    sizes = np.sort(sizes[sizes > 0])[::-1]
     if len(sizes) < 2:
         return []
     listed = ", ".join(str(s) for s in sizes[:10]) + (", ..." if len(sizes) > 10 else "")

@@ -39,6 +39,35 @@ class Grouping:
     notes: tuple = ()
 
 
+def unique_rows(keys: np.ndarray):
+    """First index, inverse and count of the distinct rows of an integer array.
+
+    Rows of non-negative integers are packed into one int64 when they fit, which
+    sorts about ten times faster than ``np.unique(axis=0)``.
+
+    Returns
+    -------
+    first : (n_unique,) index of each distinct row's first occurrence
+    inverse : (n,) index of each row's distinct value
+    counts : (n_unique,) occurrences of each distinct row
+    """
+    keys = np.asarray(keys, dtype=np.int64)
+    n, k = keys.shape
+    base = int(keys.max()) + 1 if n else 1
+    if n and keys.min() >= 0 and k * np.log2(base) < 62:
+        packed = np.zeros(n, dtype=np.int64)
+        for j in range(k):
+            packed = packed * base + keys[:, j]
+        _, first, inverse, counts = np.unique(
+            packed, return_index=True, return_inverse=True, return_counts=True
+        )
+    else:
+        _, first, inverse, counts = np.unique(
+            keys, axis=0, return_index=True, return_inverse=True, return_counts=True
+        )
+    return first, inverse.ravel(), counts
+
+
 def pair_rows(keys: np.ndarray):
     """Indices of equal rows of ``keys`` taken two at a time.
 
@@ -48,8 +77,7 @@ def pair_rows(keys: np.ndarray):
     count : (n,) how many rows share each row's value
     pairs : (m, 2) indices of the rows whose value occurs exactly twice
     """
-    _, inverse, counts = np.unique(keys, axis=0, return_inverse=True, return_counts=True)
-    inverse = inverse.ravel()
+    _, inverse, counts = unique_rows(keys)
     count = counts[inverse]
     twice = np.flatnonzero(count == 2)
     order = twice[np.argsort(inverse[twice], kind="stable")]
@@ -159,8 +187,7 @@ def match_tagged_faces(
     tri = [np.sort(np.asarray(tagged[n])[:, :3].astype(np.int64), axis=1).reshape(-1, 3) for n in names]
     tri_label = np.repeat(np.arange(len(names)), [len(t) for t in tri])
     all_keys = np.vstack([face_keys, *tri, np.empty((0, 3), np.int64)])
-    _, inverse = np.unique(all_keys, axis=0, return_inverse=True)
-    inverse = inverse.ravel()
+    _, inverse, _ = unique_rows(all_keys)
     n_faces = len(face_keys)
     label_of_key = np.full(inverse.max() + 1 if len(inverse) else 0, -1, dtype=np.int64)
     label_of_key[inverse[n_faces:]] = tri_label
@@ -191,8 +218,8 @@ def _unmatched_notes(tri, tri_label, off, names, interior_keys):
     inside = np.zeros(len(keys), dtype=bool)
     if interior_keys is not None and len(interior_keys):
         both = np.vstack([keys, interior_keys])
-        _, inv, cnt = np.unique(both, axis=0, return_inverse=True, return_counts=True)
-        inside = cnt[inv.ravel()[: len(keys)]] > 1
+        _, inv, cnt = unique_rows(both)
+        inside = cnt[inv[: len(keys)]] > 1
     label = tri_label[off]
     for what, mask in (("lie inside the body", inside), ("are not faces of any tetrahedron", ~inside)):
         counts = np.bincount(label[mask], minlength=len(names))

@@ -303,3 +303,44 @@ def test_ball_volume_error_converges_at_second_order_and_quadratic_elements_do_b
     assert 1.5 < order_p1 < 2.7  # faceting error O(h^2), common practice, no source
     assert order_p2 > 3.0  # curved quadratic elements: geometric error O(h^4) (measured 4.4)
     assert err[0.15, 2] < err[0.15, 1] / 100.0
+
+
+def test_other_cell_types_are_ignored_and_listed(tmp_path):
+    m = box_mesh((2, 2, 2))
+    hexa = ("hexahedron", np.arange(8)[None, :])
+    path = _write_box(
+        tmp_path / "hex.vtu", extra=[hexa, ("line", m.faces[:2, :2]), ("vertex", np.array([[0]]))]
+    )
+    got = read_mesh(path)
+    assert got.n_cells == m.n_cells
+    assert (
+        "ignored cells that are neither tetrahedra nor triangles: hexahedron 1, line 2, vertex 1"
+        in got.warnings
+    )
+
+
+def test_overlapping_element_sets_put_each_element_in_the_smallest(tmp_path):
+    m = box_mesh((2, 2, 2), regions=lambda c: ((c[:, 2] > 0.5).astype(int), ("low", "high")))
+    sets = {
+        "ALL": [np.arange(m.n_cells)],
+        **{n: [np.flatnonzero(m.cell_region == i)] for i, n in enumerate(m.region_names)},
+    }
+    path = tmp_path / "sets.inp"
+    meshio.write(path, meshio.Mesh(m.points, [("tetra", m.cells)], cell_sets=sets))
+    got = read_mesh(path)
+    assert got.region_names == ("low", "high")
+    np.testing.assert_array_equal(got.cell_region, m.cell_region)
+    assert any(w.startswith("element sets overlap (ALL, low, high)") for w in got.warnings)
+
+
+def test_packed_row_keys_agree_with_numpy_unique():
+    from heatsoak.core.surface import unique_rows
+
+    rng = np.random.default_rng(2)
+    for high in (50, 2**40):  # packed into one integer, and too large to pack
+        keys = rng.integers(0, high, size=(400, 3))
+        keys = np.vstack([keys, keys[:100]])
+        got = unique_rows(keys)
+        _, *ref = np.unique(keys, axis=0, return_index=True, return_inverse=True, return_counts=True)
+        for a, b in zip(got, ref):  # packing keeps the lexicographic order of the rows
+            np.testing.assert_array_equal(a, b.ravel())
