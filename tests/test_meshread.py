@@ -344,3 +344,15 @@ def test_packed_row_keys_agree_with_numpy_unique():
         _, *ref = np.unique(keys, axis=0, return_index=True, return_inverse=True, return_counts=True)
         for a, b in zip(got, ref):  # packing keeps the lexicographic order of the rows
             np.testing.assert_array_equal(a, b.ravel())
+
+
+def test_nearly_flat_element_is_reported_not_refused():
+    m = box_mesh((2, 2, 2))
+    sliver = np.array(
+        [[5, 0, 0], [6, 0, 0], [5, 1, 0], [5.5, 0.5, 1e-11]]
+    )  # height 1e-11 over a 0.5 m^2 base
+    points = np.vstack([m.points, sliver])
+    cells = np.vstack([m.cells, len(m.points) + np.arange(4)])
+    got = build_mesh(points, cells, np.zeros(len(cells), int), ("body",), None)
+    assert got.n_cells == m.n_cells + 1
+    assert any("1 elements of nearly zero volume (worst: element 48" in w for w in got.warnings)
