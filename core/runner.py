@@ -29,7 +29,7 @@ def _summary(case: Case, stepper, rec: Recorder, files: ResultFiles, status: str
     return {
         "status": status,
         "case": "" if case.path is None else case.path.name,
-        "steps": stepper.step_count,
+        "steps": max(times.size - 1, 0),
         "end_time": float(times[-1]) if times.size else 0.0,
         "wall_time_s": clock["wall"],
         "timing_s": {"setup": clock["setup"], "stepping": clock["stepping"], "recording_and_writing": clock["output"]},
