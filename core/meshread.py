@@ -79,22 +79,39 @@ def read_mesh(path, unit: str = "m", feature_angle: float = 30.0) -> Mesh:
     )
 
 
-def _read_meshio(path: Path):
-    """meshio's reader for ``path``, with every failure turned into MeshError.
+def _formats(path: Path) -> list:
+    """meshio format names for the file's extension, gmsh first (.msh is also ANSYS's)."""
+    import meshio
 
-    meshio.read() prints and exits the interpreter when a reader fails, so the
-    readers are called directly; what they print is kept as warnings.
+    table = meshio.extension_to_filetypes
+    suffix = "".join(path.suffixes[-2:]).lower()
+    formats = table.get(suffix) or table.get(path.suffix.lower()) or []
+    return sorted(formats, key=lambda f: f != "gmsh")
+
+
+def _reader(fmt: str):
+    """meshio's reader of ``fmt``: called directly because meshio.read() prints
+    and exits the interpreter when a reader fails."""
+    import meshio
+
+    try:
+        from meshio._helpers import reader_map
+
+        return reader_map[fmt]
+    except (ImportError, KeyError):  # a meshio that moved its table: the public call
+        return lambda name: meshio.read(name, file_format=fmt)
+
+
+def _read_meshio(path: Path):
+    """meshio's reading of ``path``, with every failure turned into MeshError.
+
+    What the reader prints is kept as warnings.
     """
     import meshio
-    from meshio._helpers import _filetypes_from_path, reader_map
 
     if not path.is_file():
         raise MeshError(f"mesh file {path} not found")
-    try:
-        formats = _filetypes_from_path(path)
-    except meshio.ReadError:
-        formats = []
-    formats = sorted(formats, key=lambda f: f != "gmsh")  # .msh is also an ANSYS extension
+    formats = _formats(path)
     if not formats:
         known = ", ".join(sorted(meshio.extension_to_filetypes))
         raise MeshError(f"{path}: unknown mesh file extension {path.suffix!r}; readable: {known}")
@@ -103,8 +120,8 @@ def _read_meshio(path: Path):
         out = io.StringIO()
         try:
             with contextlib.redirect_stdout(out), contextlib.redirect_stderr(out):
-                raw = reader_map[fmt](str(path))
-        except Exception as exc:  # noqa: BLE001 - each reader fails its own way on a bad file
+                raw = _reader(fmt)(str(path))
+        except (Exception, SystemExit) as exc:  # noqa: BLE001 - each reader fails its own way on a bad file
             problems.append(
                 f"as {fmt}: {type(exc).__name__}: {exc}" if str(exc) else f"not readable as {fmt}"
             )
