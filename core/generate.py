@@ -7,6 +7,7 @@ from itertools import permutations
 import numpy as np
 
 from .mesh import Mesh
+from .meshread import build_mesh
 from .topology import boundary_faces, elevate, reorient, signed_volumes
 
 #: Names of the six sides of a box, in the order (axis, low/high).
@@ -83,23 +84,13 @@ def box_mesh(
         labels, names = regions(centroids)
         labels, names = np.asarray(labels, dtype=np.int64), tuple(names)
 
-    faces, face_cell = boundary_faces(cells)
+    faces, _ = boundary_faces(cells)
     fc = points[faces[:, :3]].mean(axis=1)
     lo = np.asarray(origin, float)
     hi = lo + np.asarray(size, float)
     tol = 1e-9 * max(size)
-    side = np.full(len(faces), -1, dtype=np.int64)
+    tagged = {}
     for a in range(3):
-        side[np.abs(fc[:, a] - lo[a]) < tol] = 2 * a
-        side[np.abs(fc[:, a] - hi[a]) < tol] = 2 * a + 1
-    assert (side >= 0).all()
-    return Mesh(
-        points=points,
-        cells=cells,
-        cell_region=labels,
-        region_names=names,
-        faces=faces,
-        face_group=side,
-        group_names=BOX_SIDES,
-        face_cell=face_cell,
-    )
+        tagged[BOX_SIDES[2 * a]] = faces[np.abs(fc[:, a] - lo[a]) < tol]
+        tagged[BOX_SIDES[2 * a + 1]] = faces[np.abs(fc[:, a] - hi[a]) < tol]
+    return build_mesh(points, cells, labels, names, tagged_faces=tagged)
