@@ -74,17 +74,21 @@ class Operators:
     def lumped(self) -> bool:
         return not sp.issparse(self.mass)
 
-    def load(self, t: float, kind: str | None = None) -> np.ndarray:
-        """F(t), (n,) [W]; only loads of ``kind`` when given."""
+    def load(self, t: float, kind: str | None = None, start: float | None = None) -> np.ndarray:
+        """F(t), (n,) [W]; only loads of ``kind`` when given.
+
+        With ``start``, the limit from the left at ``t`` of a step from
+        ``start`` (see :func:`left_value`); without, the value at ``t``.
+        """
         f = np.zeros(self.stiffness.shape[0])
         for sched, vec, k in self.loads:
             if kind is None or k == kind:
-                f += float(sched(t)) * vec
+                f += (float(sched(t)) if start is None else left_value(sched, start, t)) * vec
         return f
 
-    def fixed_values(self, t: float) -> np.ndarray:
-        """Prescribed temperatures at time t, (n_fixed,) [degC]."""
-        vals = np.array([float(s(t)) for s in self.fixed_schedules])
+    def fixed_values(self, t: float, start: float | None = None) -> np.ndarray:
+        """Prescribed temperatures at time t, (n_fixed,) [degC]; ``start`` as in :meth:`load`."""
+        vals = np.array([float(s(t)) if start is None else left_value(s, start, t) for s in self.fixed_schedules])
         return vals[self.fixed_which] if vals.size else np.zeros(0)
 
     def mass_apply(self, x: np.ndarray) -> np.ndarray:
@@ -96,6 +100,21 @@ class Operators:
         scheds = [s for s, _, _ in self.loads] + list(self.fixed_schedules)
         pts = [np.asarray(s.breakpoints(), dtype=float) for s in scheds]
         return np.unique(np.concatenate(pts)) if pts else np.zeros(0)
+
+
+def left_value(schedule, start: float, t: float) -> float:
+    """Value of ``schedule`` as time rises to ``t`` within a step from ``start``.
+
+    Schedules are right-continuous, so at a jump time ``t`` the value is the
+    new one while a step ending at ``t`` must still see the old one. Steps
+    land on every breakpoint, so a schedule is linear within a step and its
+    left limit at a breakpoint is the extrapolation 2 s((start + t)/2) - s(start),
+    exact for constants, ramps and tables; elsewhere it is s(t).
+    """
+    bp = np.asarray(schedule.breakpoints(), dtype=float)
+    if bp.size == 0 or not np.any(np.abs(bp - t) <= 1e-12 * max(1.0, abs(t))):
+        return float(schedule(t))
+    return 2.0 * float(schedule(0.5 * (start + t))) - float(schedule(start))
 
 
 def cell_coefficients(problem: Problem):

@@ -165,8 +165,9 @@ class ThetaMethod(Integrator):
         ops, f, p = self.ops, self.ops.free, self.ops.fixed
         dt = t_new - t
         theta = 1.0 if t_new <= self._start_until + 1e-12 * self.end else self.theta
-        Tp0, Tp1 = T[p], ops.fixed_values(t_new)
-        F0, F1 = ops.load(t), ops.load(t_new)
+        # values inside the step: at t_new the limit from the left, so a jump at t_new acts after it
+        Tp0, Tp1 = T[p], ops.fixed_values(t_new, start=t)
+        F0, F1 = ops.load(t), ops.load(t_new, start=t)
         Ftheta = theta * F1 + (1.0 - theta) * F0
         Tf = T[f]
         rhs = self._mff(Tf) / dt - (1.0 - theta) * (self._Kff @ Tf) + Ftheta[f]
@@ -184,6 +185,14 @@ class ThetaMethod(Integrator):
         T_new[f] = Tf + dTf
         T_new[p] = Tp1
         self._account(T, T_new, dt, theta, t, t_new)
+        jump = ops.fixed_values(t_new) - Tp1
+        if np.any(jump != 0.0):
+            # a prescribed temperature that jumps at t_new does so instantly: the heat it takes
+            # is stored at once and counted as entering through those nodes
+            T_new[p] += jump
+            dE = ops.mass_apply(np.bincount(p, weights=jump, minlength=T.shape[0])).sum()
+            self._energy["stored_J"] += dE
+            self._energy["dirichlet_in_J"] += dE
         return T_new
 
     def _account(self, T0, T1, dt, theta, t, t_new):
@@ -191,8 +200,8 @@ class ThetaMethod(Integrator):
         ops = self.ops
         Tth = theta * T1 + (1 - theta) * T0
         dE = ops.mass_apply(T1 - T0)
-        Fb = theta * ops.load(t_new, "boundary") + (1 - theta) * ops.load(t, "boundary")
-        Fs = theta * ops.load(t_new, "source") + (1 - theta) * ops.load(t, "source")
+        Fb = theta * ops.load(t_new, "boundary", start=t) + (1 - theta) * ops.load(t, "boundary")
+        Fs = theta * ops.load(t_new, "source", start=t) + (1 - theta) * ops.load(t, "source")
         r = dE / dt + ops.stiffness @ Tth - Fb - Fs
         self._energy["stored_J"] += dE.sum()
         self._energy["boundary_in_J"] += dt * (Fb.sum() - (ops.convection @ Tth).sum())
