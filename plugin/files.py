@@ -15,7 +15,7 @@ from heatsoak.core.errors import InputError
 MESH_SUFFIXES = (".msh", ".vtu", ".vtk", ".xdmf", ".xmf", ".inp", ".med", ".mesh", ".obj", ".stl")
 CASE_SUFFIXES = (".toml",)
 #: Largest upload accepted [bytes].
-MAX_UPLOAD_BYTES = 200 * 1024 * 1024
+MAX_UPLOAD_BYTES = 200_000_000
 
 
 def inside(root, name) -> Path:

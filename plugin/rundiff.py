@@ -8,8 +8,8 @@ from __future__ import annotations
 
 #: Units shown after values of these keys (last path element).
 UNITS = {
-    "duration": "s",
-    "start_time": "s",
+    "over": "s",
+    "at": "s",
     "end": "s",
     "step": "s",
     "h": "W/(m2 K)",
@@ -20,8 +20,8 @@ UNITS = {
 }
 #: Words for keys whose plain name reads badly.
 WORDS = {
-    "duration": "over",
-    "start_time": "starting at",
+    "over": "over",
+    "at": "starting at",
     "step": "time step",
     "h": "h",
     "specific_heat": "specific heat",
@@ -81,13 +81,14 @@ def _subject(path) -> str:
     section, rest = path[0], list(path[1:])
     if section in ("boundary", "material", "probe") and rest:
         who = rest.pop(0)
+        rest = [r for r in rest if r != "value"]
     elif section == "time":
         who = ""
     else:
         who = section
     words = [WORDS.get(r, r.replace("_", " ")) for r in rest]
-    if rest and rest[-1] in ("duration", "start_time", "start", "end") and len(rest) >= 2:
-        words = [rest[-2], WORDS[rest[-1]]] if section == "boundary" else words
+    if section == "boundary" and len(rest) >= 2 and rest[-1] in ("over", "at", "start", "end"):
+        words = [rest[-2], WORDS[rest[-1]]]
     if section == "time" and rest == ["end"]:
         words = ["end time"]
     return " ".join(w for w in [who] + words if w)

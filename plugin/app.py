@@ -1,0 +1,91 @@
+"""A bare pyvista + trame mesh viewer with the heat panel mounted: ``heatsoak ui``.
+
+The viewer itself knows nothing about heat: it has a plotter, a 3D view and
+a layout; :func:`heatsoak.plugin.mount` adds the panel. The command binds
+127.0.0.1 unless told otherwise and then requires an access key.
+"""
+
+from __future__ import annotations
+
+import os
+import sys
+from pathlib import Path
+
+from heatsoak.core.errors import InputError
+
+from . import files
+from .access import decide_access
+
+#: The case opened when ``heatsoak ui`` is given no file.
+DEMO_CASE = Path(__file__).resolve().parent.parent / "meshes" / "demo.toml"
+STYLE = Path(__file__).with_name("style.css")
+
+
+def build_app(server, input_path=None, data_dir=None, work_dir=None, view_mode: str = "server"):
+    """Lay out the bare viewer on ``server`` and mount the heat panel; returns the panel."""
+    from trame.ui.vuetify3 import VAppLayout
+    from trame.widgets import html
+    from trame.widgets import vuetify3 as v3
+
+    from .panel import mount
+    from .pvtrame import new_plotter
+    from .ui_results import curves, player, run_bar
+
+    plotter = new_plotter()
+    heat = mount(server, plotter, data_dir=data_dir, work_dir=work_dir, view_mode=view_mode)
+    server.state.trame__title = "heatsoak"
+    with VAppLayout(server, full_height=True) as layout:
+        html.Style(STYLE.read_text(encoding="utf-8"))
+        with v3.VAppBar(density="compact", color="#23332f", flat=True):
+            v3.VAppBarTitle("heatsoak · transient heat in solids", classes="text-body-1")
+            v3.VSpacer()
+            html.Span("Engineering estimates: check them, and follow local codes.",
+                      classes="text-caption mr-4 hs-bar-note")
+        with v3.VNavigationDrawer(width=420, permanent=True, classes="hs-drawer", id="hs-setup-drawer"):
+            heat.setup_ui()
+        with v3.VNavigationDrawer(width=300, permanent=True, location="right", classes="hs-drawer"):
+            heat.runs_ui()
+        with v3.VMain(classes="hs-main"):
+            with html.Div(classes="d-flex flex-column", style="height: 100%"):
+                run_bar(heat)
+                with html.Div(classes="hs-view flex-grow-1", style="position: relative; min-height: 340px"):
+                    heat.view_ui()
+                player(heat)
+                curves(heat)
+    heat.layout = layout
+    if input_path:
+        heat.open_path(Path(input_path))
+    return heat
+
+
+def _argv_for_trame(args, key) -> list:
+    """The options trame's own parser reads at start (it parses sys.argv)."""
+    argv = ["heatsoak-ui", "--host", args.host, "--port", str(args.port), "--timeout", "0"]
+    if args.server:
+        argv.append("--server")
+    if key:
+        argv += ["--authKey", key]
+    return argv
+
+
+def cmd_ui(args) -> int:
+    """``heatsoak ui [input] [--data-dir] [--port] [--host] [--key-file] [--server]``."""
+    access = decide_access(args.host, args.key_file)
+    data_dir = Path(args.data_dir).resolve() if args.data_dir else None
+    input_path = Path(args.input) if args.input else DEMO_CASE
+    if data_dir is None:
+        data_dir = input_path.resolve().parent if input_path.exists() else Path.cwd()
+    if not data_dir.is_dir():
+        raise InputError(f"--data-dir {args.data_dir}: not a folder")
+    if not input_path.exists():
+        raise InputError(f"{input_path}: no such mesh or case file")
+    os.environ.setdefault("TRAME_WS_MAX_MSG_SIZE", str(files.MAX_UPLOAD_BYTES + 1_000_000))
+    from trame.app import get_server
+
+    server = get_server("heatsoak", client_type="vue3")
+    build_app(server, input_path=input_path, data_dir=data_dir)
+    print(access.notice(args.port), flush=True)
+    sys.argv = _argv_for_trame(args, access.key)
+    server.start(host=access.host, port=args.port, timeout=0, open_browser=not args.server,
+                 show_connection_info=False)
+    return 0

@@ -1,0 +1,166 @@
+"""Handlers of the mesh step: browse the data folder, upload, read a mesh or a case."""
+
+from __future__ import annotations
+
+import tomllib
+from pathlib import Path
+
+from heatsoak.core.errors import InputError
+from heatsoak.core.inspect import summarize
+from heatsoak.core.meshread import UNITS, read_mesh
+from heatsoak.core.schedule import read_table_csv
+
+from . import files, h_setup
+from .forms import bc_form_from_case
+
+
+def register(panel) -> None:
+    """Defaults and handlers of the mesh step."""
+    state, ctrl = panel.state, panel.ctrl
+    state.update({
+        "hs_dir": "", "hs_files": [], "hs_mesh_name": "", "hs_unit": "m", "hs_units": list(UNITS),
+        "hs_feature_angle": 30.0, "hs_facts": None, "hs_mesh_error": "", "hs_upload": None,
+        "hs_upload_error": "", "hs_max_upload_mb": files.MAX_UPLOAD_BYTES // 1_000_000,
+    })
+
+    @ctrl.set("hs_refresh_files")
+    def refresh_files():
+        """List the current folder of the data folder."""
+        try:
+            state.hs_files = files.list_files(panel.data_dir, state.hs_dir)
+        except (InputError, OSError) as exc:
+            state.hs_dir, state.hs_mesh_error = "", str(exc)
+            state.hs_files = files.list_files(panel.data_dir, "")
+
+    @ctrl.set("hs_open")
+    def open_entry(path, kind):
+        """Open a row of the file list: enter a folder, read a mesh or a case."""
+        if kind == "folder":
+            state.hs_dir = path
+            refresh_files()
+            return
+        try:
+            target = files.inside(panel.data_dir, path)
+        except InputError as exc:
+            state.hs_mesh_error = str(exc)
+            return
+        (open_case if kind == "case" else open_mesh)(panel, target)
+
+    @ctrl.set("hs_up_dir")
+    def up_dir():
+        state.hs_dir = files.parent_of(state.hs_dir)
+        refresh_files()
+
+    @ctrl.set("hs_reload_mesh")
+    def reload_mesh():
+        """Read the mesh again with the unit and feature angle now set."""
+        if panel.mesh_path is not None:
+            open_mesh(panel, panel.mesh_path, keep_forms=True)
+
+    @ctrl.set("hs_set_unit")
+    def set_unit(unit):
+        """The user says which length unit the file is in: read it again."""
+        state.hs_unit = unit
+        reload_mesh()
+
+    @ctrl.set("hs_set_angle")
+    def set_angle(angle):
+        """A new feature angle splits untagged surfaces again."""
+        try:
+            state.hs_feature_angle = float(angle)
+        except (TypeError, ValueError):
+            state.hs_mesh_error = f"feature angle {angle!r} is not a number of degrees"
+            return
+        reload_mesh()
+
+    @state.change("hs_upload")
+    def on_upload(hs_upload, **_):
+        """Store an uploaded file in the work folder and open it."""
+        if not hs_upload:
+            return
+        upload = hs_upload[0] if isinstance(hs_upload, list) else hs_upload
+        state.hs_upload_error = ""
+        try:
+            if int(upload.get("size", 0)) > files.MAX_UPLOAD_BYTES:
+                raise InputError(f"upload {upload.get('name')!r}: {int(upload['size']) / 1e6:.1f} MB is over the "
+                                 f"limit of {files.MAX_UPLOAD_BYTES / 1e6:.0f} MB; put large meshes in the data folder")
+            path = files.save_upload(panel.work_dir / "uploads", upload.get("name", ""), bytes(upload["content"]))
+        except InputError as exc:
+            state.hs_upload_error = str(exc)
+            return
+        (open_case if path.suffix == ".toml" else open_mesh)(panel, path)
+
+    refresh_files()
+
+
+def open_mesh(panel, path: Path, keep_forms: bool = False) -> bool:
+    """Read ``path`` with the unit and feature angle in the state and show it."""
+    state = panel.state
+    state.hs_mesh_error = ""
+    try:
+        mesh = read_mesh(path, state.hs_unit, float(state.hs_feature_angle))
+    except (InputError, OSError, ValueError) as exc:
+        state.hs_mesh_error = _plain(exc, path)
+        return False
+    panel.mesh, panel.mesh_path = mesh, Path(path)
+    panel.case_dir = Path(path).parent
+    state.hs_mesh_name = Path(path).name
+    state.hs_facts = summarize(mesh)
+    panel.scene.show_mesh(mesh)
+    h_setup.mesh_changed(panel, keep_forms=keep_forms)
+    panel.reset_camera()
+    panel.update_view()
+    return True
+
+
+def _plain(exc, path) -> str:
+    """An error message without the machine's folders (the user knows the file by its name)."""
+    return str(exc).replace(str(Path(path).parent) + "/", "")
+
+
+def open_case(panel, path: Path) -> bool:
+    """Read a case file: its mesh, then fill every form from it."""
+    state = panel.state
+    try:
+        data = tomllib.loads(Path(path).read_text(encoding="utf-8"))
+    except (OSError, tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        state.hs_mesh_error = f"{Path(path).name}: cannot read the case file ({exc})"
+        return False
+    mesh_sec = data.get("mesh", {})
+    state.hs_unit = mesh_sec.get("unit", "m")
+    state.hs_feature_angle = float(mesh_sec.get("feature_angle", 30.0))
+    try:
+        mesh_path = (Path(path).parent / str(mesh_sec.get("file", ""))).resolve()
+    except (TypeError, ValueError):
+        mesh_path = None
+    if mesh_path is None or not mesh_path.is_file():
+        state.hs_mesh_error = f"{Path(path).name}: mesh.file {mesh_sec.get('file')!r} not found next to the case"
+        return False
+    if not open_mesh(panel, mesh_path):
+        return False
+    fill_forms_from_case(panel, data, Path(path).parent)
+    state.hs_case_name = Path(path).name
+    return True
+
+
+def fill_forms_from_case(panel, data: dict, base_dir: Path) -> None:
+    """Set the condition, material, time and probe forms from case data."""
+    state = panel.state
+
+    def read_table(name):
+        table = read_table_csv(base_dir / name)
+        return table.times, table.values
+
+    bcs = dict(panel.bcs)
+    for group, entry in (data.get("boundary") or {}).items():
+        if group in bcs and isinstance(entry, dict):
+            try:
+                bcs[group] = bc_form_from_case(entry, read_table)
+            except (InputError, ValueError, TypeError) as exc:
+                state.hs_mesh_error = f"boundary.{group}: {exc}"
+    mats = dict(panel.mats)
+    for region in mats:
+        entry = (data.get("material") or {}).get(region) or (data.get("material") or {}).get("*")
+        if isinstance(entry, dict):
+            mats[region] = h_setup.material_form(entry)
+    h_setup.set_forms(panel, bcs=bcs, mats=mats, case=data)

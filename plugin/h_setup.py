@@ -1,0 +1,304 @@
+"""Handlers of the set-up steps: surface conditions, materials, time, probes, checks.
+
+Editors are bound to flat state keys for the selected group or region; the
+forms of every group and region live on the panel (``panel.bcs``,
+``panel.mats``) and become a case dict for :func:`heatsoak.core.case.check_case_data`.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from heatsoak.core.case import check_case_data
+from heatsoak.core.errors import InputError
+from heatsoak.core.materials import LIBRARY, SOURCE_NOTE
+from heatsoak.core.meshread import UNITS
+from heatsoak.core.schedule import parse_schedule
+
+from . import plots
+from .forms import KIND_UNITS, KINDS, FormError, case_from_forms, default_bc, issues_by_field, schedule_value
+from .scene import group_colour
+
+BC_FIELDS = ("kind", "shape", "value", "start", "end", "at", "over", "table", "h")
+MAT_FIELDS = ("preset", "density", "specific_heat", "conductivity")
+TIME_KEYS = ("hs_t_end", "hs_t_step", "hs_t_theta", "hs_t_mass", "hs_initial", "hs_every")
+DEFAULT_MATERIAL = "carbon_steel"
+
+
+def material_form(entry: dict) -> dict:
+    """A material form from a case ``material.<region>`` table or a library key."""
+    if isinstance(entry, str):
+        return {"preset": entry, **{k: v for k, v in LIBRARY[entry].as_case().items() if k != "label"}}
+    preset = next((k for k, m in LIBRARY.items() if entry.get("label", "").startswith(m.name)), "custom")
+    return {"preset": preset, **{k: float(entry.get(k, 0.0)) for k in MAT_FIELDS[1:]}}
+
+
+def register(panel) -> None:
+    """Defaults and handlers of the set-up steps."""
+    state, ctrl = panel.state, panel.ctrl
+    panel.bcs, panel.mats = {}, {}
+    state.update({
+        "hs_groups": [], "hs_group": None, "hs_regions": [], "hs_region": None, "hs_pick_mode": "group",
+        "hs_kinds": [{"value": v, "title": t} for v, t, _ in KINDS], "hs_bc_unit": "",
+        "hs_library": [{"value": k, "title": m.name} for k, m in LIBRARY.items()]
+        + [{"value": "custom", "title": "Custom values"}],
+        "hs_library_note": SOURCE_NOTE, "hs_preview": "", "hs_err": {}, "hs_run_reason": "Open a mesh first",
+        "hs_t_end": 600.0, "hs_t_step": 10.0, "hs_t_theta": 1.0, "hs_t_mass": "consistent", "hs_initial": 20.0,
+        "hs_every": 1, "hs_theta_hint": "", "hs_probes": [], "hs_p_name": "P1", "hs_p_x": 0.0, "hs_p_y": 0.0,
+        "hs_p_z": 0.0, "hs_p_threshold": None, "hs_case_name": "",
+    })
+    state.update({f"hs_e_{k}": v for k, v in default_bc().items()})
+    state.update({f"hs_m_{k}": None for k in MAT_FIELDS})
+
+    @state.change("hs_group")
+    def on_group(hs_group, **_):
+        """Show the selected group's condition in the editor and highlight it in 3D."""
+        if panel.mesh is None:
+            return
+        form = panel.bcs.get(hs_group)
+        if form is not None:
+            state.update({f"hs_e_{k}": form[k] for k in BC_FIELDS})
+        panel.scene.highlight_group(panel.mesh.group_names.index(hs_group) if form is not None else None)
+        panel.update_view()
+        refresh_preview(panel)
+
+    @state.change(*(f"hs_e_{k}" for k in BC_FIELDS))
+    def on_bc_edit(**_):
+        """Keep the edited condition of the selected group and check the case."""
+        group = state.hs_group
+        if group in panel.bcs:
+            panel.bcs[group] = {k: state[f"hs_e_{k}"] for k in BC_FIELDS}
+        state.hs_bc_unit = KIND_UNITS.get(state.hs_e_kind, "")
+        validate(panel)
+        refresh_preview(panel)
+
+    @state.change("hs_region")
+    def on_region(hs_region, **_):
+        form = panel.mats.get(hs_region)
+        if form is not None:
+            state.update({f"hs_m_{k}": form[k] for k in MAT_FIELDS})
+
+    @state.change("hs_m_preset")
+    def on_preset(hs_m_preset, **_):
+        """Fill the numbers of a library material."""
+        if hs_m_preset in LIBRARY and panel.mats.get(state.hs_region, {}).get("preset") != hs_m_preset:
+            state.update({f"hs_m_{k}": v for k, v in material_form(hs_m_preset).items()})
+
+    @state.change(*(f"hs_m_{k}" for k in MAT_FIELDS[1:]))
+    def on_material_edit(**_):
+        region = state.hs_region
+        if region not in panel.mats:
+            return
+        form = {k: state[f"hs_m_{k}"] for k in MAT_FIELDS}
+        lib = LIBRARY.get(form["preset"])
+        if lib is not None and any(_differs(form[k], getattr(lib, k)) for k in MAT_FIELDS[1:]):
+            form["preset"] = state.hs_m_preset = "custom"
+        panel.mats[region] = form
+        validate(panel)
+
+    @state.change(*TIME_KEYS)
+    def on_time_edit(**_):
+        state.hs_theta_hint = theta_hint(state.hs_t_theta)
+        validate(panel)
+        refresh_preview(panel)
+
+    @state.change("hs_table_upload")
+    def on_table_upload(hs_table_upload, **_):
+        """Put an uploaded CSV table into the table field (checked like pasted text)."""
+        if not hs_table_upload:
+            return
+        upload = hs_table_upload[0] if isinstance(hs_table_upload, list) else hs_table_upload
+        if int(upload.get("size", 0)) > 1_000_000:
+            state.hs_err = {**state.hs_err, f"boundary.{state.hs_group}.table": ["the CSV file is over 1 MB"]}
+            return
+        state.hs_e_table = bytes(upload["content"]).decode("utf-8-sig", errors="replace")
+        state.hs_table_upload = None
+
+    @ctrl.set("hs_add_probe")
+    def add_probe():
+        """Add the probe typed in the probe fields."""
+        row = {"name": str(state.hs_p_name).strip(), "x": state.hs_p_x, "y": state.hs_p_y, "z": state.hs_p_z,
+               "threshold": state.hs_p_threshold if state.hs_p_threshold not in ("", None) else None}
+        state.hs_probes = [p for p in state.hs_probes if p["name"] != row["name"]] + [row]
+        state.hs_p_name = next_probe_name(state.hs_probes)
+        probes_changed(panel)
+
+    @ctrl.set("hs_remove_probe")
+    def remove_probe(name):
+        state.hs_probes = [p for p in state.hs_probes if p["name"] != name]
+        probes_changed(panel)
+
+    @ctrl.set("hs_view_click")
+    def on_view_click(event):
+        """A click in 3D: select the group under the mouse, or place a probe there."""
+        if panel.mesh is None or not event or "position" not in event:
+            return
+        hit = panel.scene.pick(event["position"]["x"], event["position"]["y"])
+        if hit is None:
+            return
+        point, group = hit
+        if state.hs_pick_mode == "probe":
+            scale = UNITS.get(state.hs_unit, 1.0)
+            state.hs_p_x, state.hs_p_y, state.hs_p_z = (float(f"{c / scale:.6g}") for c in point)
+            add_probe()
+        else:
+            state.hs_group = panel.mesh.group_names[group]
+
+
+
+
+
+def _differs(a, b) -> bool:
+    try:
+        return abs(float(a) - float(b)) > 1e-12 * max(1.0, abs(float(b)))
+    except (TypeError, ValueError):
+        return True
+
+
+def next_probe_name(probes) -> str:
+    """The first free name P1, P2, ..."""
+    taken = {p["name"] for p in probes}
+    return next(f"P{i}" for i in range(1, len(taken) + 2) if f"P{i}" not in taken)
+
+
+def theta_hint(theta) -> str:
+    """What the chosen theta means for the user."""
+    try:
+        theta = float(theta)
+    except (TypeError, ValueError):
+        return ""
+    if theta < 0.5:
+        return ("theta below 1/2 is only conditionally stable: the step must stay below a limit set by the "
+                "smallest element; the run stops with the limit if the step is too large.")
+    if theta < 0.6:
+        return "theta = 1/2 (Crank-Nicolson) is second order but can ring after sudden changes."
+    return "theta near 1 (backward Euler) is the most robust choice; first order in time."
+
+
+def mesh_changed(panel, keep_forms: bool = False) -> None:
+    """Fresh forms and lists for the mesh just opened (keeping forms of names that remain)."""
+    state, mesh = panel.state, panel.mesh
+    old_bcs, old_mats = (panel.bcs, panel.mats) if keep_forms else ({}, {})
+    panel.bcs = {g: old_bcs.get(g, default_bc()) for g in mesh.group_names}
+    panel.mats = {r: old_mats.get(r, material_form(DEFAULT_MATERIAL)) for r in mesh.region_names}
+    if not keep_forms:
+        state.hs_probes = []
+        state.hs_p_name = "P1"
+        state.hs_case_name = ""
+    state.hs_regions = list(mesh.region_names)
+    state.hs_region = None
+    state.hs_region = mesh.region_names[0]
+    state.hs_group = None
+    state.hs_group = mesh.group_names[0]
+    panel.scene.highlight_group(None)
+    validate(panel)
+    probes_changed(panel)
+
+
+def set_forms(panel, bcs: dict, mats: dict, case: dict) -> None:
+    """Replace all forms (after a case file was read)."""
+    state = panel.state
+    panel.bcs.update(bcs)
+    panel.mats.update(mats)
+    time = case.get("time") or {}
+    state.update({"hs_t_end": time.get("end", 600.0), "hs_t_step": time.get("step", 10.0),
+                  "hs_t_theta": time.get("theta", 1.0), "hs_t_mass": time.get("mass", "consistent"),
+                  "hs_initial": (case.get("initial") or {}).get("temperature", 20.0),
+                  "hs_every": (case.get("output") or {}).get("every", 1)})
+    state.hs_probes = [{"name": p.get("name", ""), "x": p["at"][0], "y": p["at"][1], "z": p["at"][2],
+                        "threshold": p.get("threshold")} for p in case.get("probe", []) if "at" in p]
+    state.hs_p_name = next_probe_name(state.hs_probes)
+    group, region = state.hs_group, state.hs_region
+    state.hs_group = state.hs_region = None
+    state.hs_group, state.hs_region = group, region
+    validate(panel)
+    probes_changed(panel)
+
+
+def probes_changed(panel) -> None:
+    """Mark the probes in 3D and check the case again."""
+    state = panel.state
+    if panel.mesh is not None:
+        scale = UNITS.get(state.hs_unit, 1.0)
+        pts = [[float(p[c]) * scale for c in "xyz"] for p in state.hs_probes]
+        panel.scene.show_probes(np.array(pts).reshape(-1, 3), [p["name"] for p in state.hs_probes])
+        panel.update_view()
+    validate(panel)
+
+
+def current_case(panel) -> tuple:
+    """The case dict the forms describe, and the form errors found building it."""
+    state = panel.state
+    mesh = {"file": panel.mesh_path.name if panel.mesh_path else "", "unit": state.hs_unit,
+            "feature_angle": float(state.hs_feature_angle)}
+    time = {"end": state.hs_t_end, "step": state.hs_t_step, "theta": state.hs_t_theta, "mass": state.hs_t_mass}
+    return case_from_forms(mesh, panel.bcs, panel.mats, state.hs_initial, time, state.hs_probes,
+                           every=max(1, int(state.hs_every or 1)))
+
+
+def validate(panel) -> list:
+    """Check the case: field messages in ``hs_err``, the first problem in ``hs_run_reason``."""
+    state = panel.state
+    if panel.mesh is None:
+        state.hs_err, state.hs_run_reason = {}, "Open a mesh first"
+        return ["no mesh"]
+    case, form_errors = current_case(panel)
+    issues = list(form_errors)
+    if not form_errors:
+        issues += check_case_data(case, panel.case_dir, mesh=panel.mesh)
+    state.hs_err = issues_by_field(issues)
+    state.hs_run_reason = _reason(issues[0]) if issues else ""
+    state.hs_groups = group_rows(panel, state.hs_err)
+    return issues
+
+
+def _reason(issue) -> str:
+    message = issue.message if isinstance(issue, FormError) else str(issue)
+    return f"Fix first: {message}".replace(f"{issue.key}: ", f"{issue.key} - ", 1)
+
+
+def group_rows(panel, errors: dict) -> list:
+    """Rows of the surface-group legend: colour, name, area, condition, problem flag."""
+    facts = {g["name"]: g for g in (panel.state.hs_facts or {}).get("surface_groups", [])}
+    rows = []
+    for i, name in enumerate(panel.mesh.group_names):
+        form = panel.bcs[name]
+        bad = any(k.startswith(f"boundary.{name}.") or k == f"boundary.{name}" for k in errors)
+        rows.append({"name": name, "color": group_colour(i), "area": facts.get(name, {}).get("area", 0.0),
+                     "faces": facts.get(name, {}).get("faces", 0), "summary": bc_summary(form), "bad": bad})
+    return rows
+
+
+def bc_summary(form: dict) -> str:
+    """A few words for the legend, e.g. ``temperature ramp``."""
+    kind = form.get("kind", "insulated")
+    if kind == "insulated":
+        return "insulated"
+    shape = form.get("shape", "constant")
+    return kind.replace("_", " ") + ("" if shape == "constant" else f" {shape}")
+
+
+def refresh_preview(panel) -> None:
+    """Plot the selected group's schedule over the run's time window."""
+    state = panel.state
+    form = panel.bcs.get(state.hs_group)
+    if form is None or form["kind"] == "insulated":
+        state.hs_preview = ""
+        return
+    try:
+        sched = parse_schedule(schedule_value(form, f"boundary.{state.hs_group}"), f"boundary.{state.hs_group}")
+    except (FormError, InputError) as exc:
+        state.hs_preview = plots.empty_svg(f"no preview: {exc}"[:90], width=3.9)
+        return
+    end = _positive(state.hs_t_end, 600.0)
+    t_last = max([end, *sched.breakpoints()])
+    times = np.union1d(np.linspace(0.0, 1.05 * t_last, 200), sched.breakpoints())
+    state.hs_preview = plots.schedule_svg(times, sched(times), KIND_UNITS[form["kind"]], window=end)
+
+
+def _positive(value, default: float) -> float:
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        return default
+    return v if v > 0 else default

@@ -1,0 +1,124 @@
+"""The heat-diffusion panel: mount it into any trame app that has a pyvista plotter.
+
+>>> heat = mount(server, plotter, data_dir="meshes")   # doctest: +SKIP
+>>> with layout.drawer: heat.setup_ui()                 # doctest: +SKIP
+>>> with layout.content: heat.view_ui(); heat.results_ui()  # doctest: +SKIP
+
+The panel owns the state keys starting with ``hs_`` and the controller
+entries starting with ``hs_``; it calls only :mod:`heatsoak.core` for work.
+"""
+
+from __future__ import annotations
+
+import tempfile
+from pathlib import Path
+
+from . import h_export, h_mesh, h_results, h_run, h_setup, ui_results, ui_runs, ui_setup
+from .pvtrame import view_for
+from .runstore import RunStore
+from .scene import Scene
+
+#: Shown in the panel and the app bar: what the numbers are worth.
+DISCLAIMER = (
+    "Results are engineering estimates to be checked by a competent person. "
+    "Defer to local codes and licensed practice."
+)
+
+
+class HeatPanel:
+    """State, handlers and widgets of the heat-diffusion panel.
+
+    Parameters
+    ----------
+    server : trame_server.Server
+        A vue3 trame server.
+    plotter : pyvista.Plotter
+        Off-screen plotter shown by the app's view.
+    data_dir : path, optional
+        Folder the file list may open files from (default: current folder).
+    work_dir : path, optional
+        Where uploads and run results go (default: a new temporary folder).
+    view_mode : {"server", "client"}
+        Rendering of :meth:`view_ui`.
+    """
+
+    def __init__(self, server, plotter, data_dir=None, work_dir=None, view_mode: str = "server"):
+        self.server, self.state, self.ctrl = server, server.state, server.controller
+        self.plotter = plotter
+        self.scene = Scene(plotter)
+        self.data_dir = Path(data_dir or ".").resolve()
+        self.work_dir = Path(work_dir or tempfile.mkdtemp(prefix="heatsoak-ui-")).resolve()
+        self.view_mode = view_mode
+        self.mesh = None
+        self.mesh_path = None
+        self.case_dir = self.data_dir
+        self.runs = RunStore()
+        self.job = None
+        self.views = []
+        self.state.hs_disclaimer = DISCLAIMER
+        for module in (h_mesh, h_setup, h_run, h_results, h_export):
+            module.register(self)
+
+    def open_path(self, path) -> bool:
+        """Open a mesh file or a case file (``.toml``) from anywhere the app was told to."""
+        path = Path(path)
+        opener = h_mesh.open_case if path.suffix.lower() == ".toml" else h_mesh.open_mesh
+        return opener(self, path)
+
+    # ----------------------------------------------------------- view sync
+    def update_view(self) -> None:
+        """Push the plotter's new picture to every view of it."""
+        for view in self.views:
+            view.update()
+
+    def reset_camera(self) -> None:
+        for view in self.views:
+            view.reset_camera()
+
+    def attach_view(self, view) -> None:
+        """Let a view the host app built follow the panel's changes."""
+        self.views.append(view)
+
+    @property
+    def view_events(self) -> dict:
+        """Keyword arguments that wire a host-built view to the panel's 3D clicks."""
+        return {"picking_modes": ("hs_picking", ["click"]), "click": (self.ctrl.hs_view_click, "[$event]")}
+
+    # -------------------------------------------------------------- widgets
+    def view_ui(self, **kwargs):
+        """The 3D view of the plotter, wired for clicks (call inside a layout)."""
+        view = view_for(self.plotter, self.view_mode, interactive_ratio=1, **self.view_events, **kwargs)
+        self.attach_view(view)
+        return view
+
+    def setup_ui(self):
+        """Mesh, surfaces and conditions, materials, time, probes (for a drawer)."""
+        ui_setup.build(self)
+
+    def results_ui(self):
+        """Run bar, player and curves (below the view)."""
+        ui_results.build(self)
+
+    def runs_ui(self):
+        """Runs kept, comparison and export (for a side drawer)."""
+        ui_runs.build(self)
+
+
+def mount(server, plotter, **kwargs) -> HeatPanel:
+    """Mount the heat-diffusion panel on ``server`` for ``plotter``.
+
+    Parameters
+    ----------
+    server : trame_server.Server
+        The app's trame server (vue3 client).
+    plotter : pyvista.Plotter
+        The app's off-screen plotter.
+    **kwargs
+        ``data_dir``, ``work_dir``, ``view_mode``: see :class:`HeatPanel`.
+
+    Returns
+    -------
+    HeatPanel
+        Call its ``*_ui`` methods inside the app's layout to place the widgets.
+    """
+    return HeatPanel(server, plotter, **kwargs)

@@ -1,0 +1,35 @@
+"""Small widget factories shared by the panel's layouts (vuetify 3)."""
+
+from __future__ import annotations
+
+from trame.widgets import html
+from trame.widgets import vuetify3 as v3
+
+
+def errors_of(field: str) -> tuple:
+    """``error_messages`` binding for a case field key (a JS expression may be spliced in)."""
+    return (f"hs_err[{field}] || []",)
+
+
+def number(model: str, label: str, suffix: str = "", field: str | None = None, **kwargs):
+    """A compact text field for a number, with its unit and the case checks' message."""
+    extra = {"error_messages": errors_of(field)} if field else {}
+    classes = "mb-2 " + kwargs.pop("classes", "")
+    return v3.VTextField(v_model=(model,), label=label, suffix=suffix, density="compact", variant="outlined",
+                         hide_details="auto", classes=classes, **extra, **kwargs)
+
+
+def section(title: str, value: str, icon: str):
+    """An expansion panel with a title row; use the returned text block as a context."""
+    panel = v3.VExpansionPanel(value=value, elevation=0, classes="hs-section")
+    with panel:
+        with v3.VExpansionPanelTitle(classes="text-subtitle-2"):
+            v3.VIcon(icon, size="small", classes="mr-2", color="#2f5d50")
+            html.Span(title)
+    return panel
+
+
+def note(text: str, **kwargs):
+    """A line of small grey text."""
+    classes = "text-caption hs-note " + kwargs.pop("classes", "")
+    return html.Div(text, classes=classes, **kwargs)
