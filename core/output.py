@@ -11,8 +11,9 @@ A results folder holds:
 * ``summary.json`` - what the run found, written at the end.
 
 The heavy data of each step is appended to the HDF5 file and flushed, then
-the small XML file is rewritten and atomically replaced, so it only ever
-names steps whose data is complete on disk.
+the step is added to the XML file by one small write that overwrites the
+closing tags with the new step and the closing tags, so the XML is a complete
+document between steps and only names steps whose data is on disk.
 """
 
 from __future__ import annotations
@@ -77,10 +78,12 @@ class XdmfSeries:
         )
         self._region = (f'<Attribute Name="region" AttributeType="Scalar" Center="Cell">'
                         f"{_item(h5, '/mesh/region', (mesh.n_cells,), 'Int', 8)}</Attribute>")
-        self._tail = "</Grid>\n</Domain>\n</Xdmf>\n"
-        self._grids = []
+        self._tail = b"</Grid>\n</Domain>\n</Xdmf>\n"
         self.times = []
-        _atomic_write(self.path, self._head + self._tail)
+        self._xml = open(self.path, "wb")  # noqa: SIM115 (open for the whole run)
+        self._xml.write(self._head.encode() + self._tail)
+        self._xml.flush()
+        self._end = len(self._head.encode())  # where the next step's grid goes
 
     def write(self, t: float, T: np.ndarray) -> None:
         """Append the field ``T`` (n_nodes,) [degC] at time ``t`` [s]."""
@@ -89,16 +92,23 @@ class XdmfSeries:
         self._h5.create_dataset(name, data=np.asarray(T, dtype=np.float64).reshape(self._shape))
         self._h5.flush()
         ptr = "xpointer(//Grid[@Name=&quot;mesh&quot;]/*[self::Topology or self::Geometry])"
-        self._grids.append(
+        grid = (
             f'<Grid Name="step {k}" GridType="Uniform"><xi:include xpointer="{ptr}"/>'
             f'<Time Value="{float(t)!r}"/>'
             f'<Attribute Name="{FIELD_NAME}" AttributeType="Scalar" Center="Node">'
             f"{_item(self.h5_path.name, name, self._shape, 'Float', 8)}</Attribute>{self._region}</Grid>\n"
-        )
+        ).encode()
+        # One small write replaces the closing tags by the new grid and the closing tags:
+        # the file is a complete document before and after it, in constant time per step.
+        self._xml.seek(self._end)
+        self._xml.write(grid + self._tail)
+        self._xml.flush()
+        self._end += len(grid)
         self.times.append(float(t))
-        _atomic_write(self.path, self._head + "".join(self._grids) + self._tail)
 
     def close(self) -> None:
+        if not self._xml.closed:
+            self._xml.close()
         if self._h5.id.valid:
             self._h5.close()
 
