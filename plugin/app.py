@@ -18,7 +18,6 @@ from .access import decide_access
 
 #: The case opened when ``heatsoak ui`` is given no file.
 DEMO_CASE = Path(__file__).resolve().parent.parent / "meshes" / "demo.toml"
-STYLE = Path(__file__).with_name("style.css")
 
 
 def build_app(server, input_path=None, data_dir=None, work_dir=None, view_mode: str = "server"):
@@ -35,7 +34,6 @@ def build_app(server, input_path=None, data_dir=None, work_dir=None, view_mode: 
     heat = mount(server, plotter, data_dir=data_dir, work_dir=work_dir, view_mode=view_mode)
     server.state.trame__title = "heatsoak"
     with VAppLayout(server, full_height=True) as layout:
-        html.Style(STYLE.read_text(encoding="utf-8"))
         with v3.VAppBar(density="compact", color="#23332f", flat=True):
             v3.VAppBarTitle("heatsoak · transient heat in solids", classes="text-body-1")
             v3.VSpacer()

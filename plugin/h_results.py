@@ -56,6 +56,7 @@ def register(panel) -> None:
         else:
             build_field(panel)
 
+    @panel.server.trigger("hs_play")
     @ctrl.set("hs_play")
     def play():
         if state.hs_n_frames < 2 or state.hs_playing:
@@ -65,6 +66,7 @@ def register(panel) -> None:
         state.hs_playing = True
         asyncio.ensure_future(play_loop(panel))
 
+    @panel.server.trigger("hs_pause")
     @ctrl.set("hs_pause")
     def pause():
         state.hs_playing = False

@@ -56,6 +56,7 @@ class HeatPanel:
         self.job = None
         self.views = []
         self.state.hs_disclaimer = DISCLAIMER
+        server.enable_module({"serve": {"__heatsoak": str(Path(__file__).parent)}, "styles": ["__heatsoak/style.css"]})
         for module in (h_mesh, h_setup, h_run, h_results, h_export):
             module.register(self)
 

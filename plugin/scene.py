@@ -97,7 +97,7 @@ class Scene:
         self._actors["groups"].prop.edge_opacity = 0.35
         self.plotter.view_isometric()
         self.plotter.reset_camera()
-        self.time_text = self.plotter.add_text("", position="upper_left", font_size=11, color="#2d3331", name="time")
+        self.time_text = self.plotter.add_text("", position="upper_left", font_size=9, color="#2d3331", name="time")
 
     def _group_rgb(self, selected) -> np.ndarray:
         table = np.array([_rgb(group_colour(i)) for i in range(len(self.mesh.group_names))])
