@@ -183,7 +183,7 @@ def _read_materials(ck: _Checker, data: dict, base_dir: Path, mesh) -> dict:
         label = t.get("label", "")
         if not isinstance(label, str):
             ck.bad(f"{key}.label", label, "expected text")
-        if None not in (rho, c, k) and ("source" not in t or src is not None):
+        if all(x is not None for x in (rho, c, k)) and ("source" not in t or src is not None):
             out[name] = Material(rho, c, k, source=src, label=str(label))
     if mesh is None:
         return out

@@ -138,11 +138,11 @@ def _fmt_point(point, unit: str, scale: float) -> str:
 
 def _describe_boundary(b) -> str:
     if b.kind == "temperature":
-        return f"temperature {b.value.describe()} degC"
+        return f"temperature [degC] {b.value.describe()}"
     if b.kind == "heat_flux":
-        return f"heat flux {b.value.describe()} W/m2"
+        return f"heat flux into the body [W/m2] {b.value.describe()}"
     if b.kind == "convection":
-        return f"convection h {b.h:g} W/(m2 K), ambient {b.ambient.describe()} degC"
+        return f"convection, h {b.h:g} W/(m2 K), ambient [degC] {b.ambient.describe()}"
     return "insulated"
 
 
@@ -156,7 +156,7 @@ def describe_case(case: Case) -> list:
               f"{len(m.region_names)} regions, {len(m.group_names)} surface groups")]
     for name, mat in case.problem.materials.items():
         k = mat.conductivity if np.ndim(mat.conductivity) == 0 else "tensor"
-        src = "" if mat.source is None else f", source {mat.source.describe()} W/m3"
+        src = "" if mat.source is None else f", source [W/m3] {mat.source.describe()}"
         lines.append(f"material  {name}: density {mat.density:g} kg/m3, specific heat {mat.specific_heat:g} J/(kg K), "
                      f"conductivity {k if isinstance(k, str) else format(k, 'g')} W/(m K){src}")
     for name, b in case.problem.boundaries.items():

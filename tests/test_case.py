@@ -38,6 +38,17 @@ def test_load_case_builds_materials_schedules_and_probes_in_metres(tmp_path):
     assert case.time.end == 120 and case.output_every == 2 and case.unit == "mm"
 
 
+def test_a_conductivity_tensor_and_a_source_schedule_are_accepted(tmp_path):
+    tensor = [[5.0, 1.0, 0.0], [1.0, 5.0, 0.0], [0.0, 0.0, 1.0]]
+
+    def change(d):
+        d["material"]["right"].update(conductivity=tensor, source={"ramp": {"start": 0, "end": 1e5, "over": 60}})
+
+    mat = load_case(make_case(tmp_path, change)).problem.materials["right"]
+    np.testing.assert_array_equal(mat.conductivity, tensor)
+    assert mat.source(30.0) == 5e4
+
+
 def test_theta_may_be_a_named_preset_and_a_table_a_csv_file(tmp_path):
     (tmp_path / "h.csv").write_text("time;temperature\n0;20\n60;80,5\n")
 
@@ -138,5 +149,5 @@ def test_check_of_a_good_case_prints_ok_and_a_summary(tmp_path, capsys):
     assert main(["check", str(make_case(tmp_path))]) == 0
     out = capsys.readouterr().out
     assert out.startswith("ok: ")
-    assert "xmin: temperature ramp 20 -> 180 over 60 s from 0 s degC" in out
+    assert "xmin: temperature [degC] ramp 20 -> 180 over 60 s from 0 s" in out
     assert "insulated (not listed): ymin, ymax, zmax" in out
