@@ -2,6 +2,8 @@
 
 import csv
 import json
+import subprocess
+import sys
 from pathlib import Path
 
 import meshio
@@ -116,3 +118,29 @@ def test_example_case_passes_check_and_runs_on_a_coarse_setting(path, tmp_path, 
     summary = runner.run_case(case_from_data(data, path.parent, path=path), tmp_path)
     assert summary["status"] == "complete" and summary["steps"] >= 3
     assert summary["energy"]["relative_imbalance"] < 1e-6
+
+
+CRASH = """
+import os, sys
+sys.path.insert(0, sys.argv[3])
+from heatsoak.core import runner
+from heatsoak.core.case import load_case
+
+def die(p):
+    if p.step == 5:
+        os._exit(3)  # no cleanup at all, like a crash or a kill
+
+runner.run_case(load_case(sys.argv[1]), sys.argv[2], progress=die)
+"""
+
+
+def test_a_crash_mid_run_leaves_the_steps_before_it_readable(tmp_path):
+    path = make_case(tmp_path, lambda d: d["output"].update(every=1))
+    tests = str(Path(__file__).resolve().parent)
+    done = subprocess.run([sys.executable, "-c", CRASH, str(path), str(tmp_path / "r"), tests], timeout=60, check=False)
+    assert done.returncode == 3
+    assert not (tmp_path / "r" / "summary.json").exists()
+    _, _, times, fields = _xdmf_steps(tmp_path / "r" / "temperature.xdmf")
+    np.testing.assert_allclose(times, [0, 10, 20, 30, 40])
+    assert len(_read_csv(tmp_path / "r" / "probes.csv")) == 1 + 5
+    assert fields[-1].max() == pytest.approx(20 + 160 * 40 / 60)
