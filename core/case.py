@@ -49,9 +49,13 @@ import os
 from dataclasses import dataclass
 from pathlib import Path
 
+try:
+    import tomllib
+except ModuleNotFoundError:  # Python 3.10
+    import tomli as tomllib
+
 import numpy as np
 import tomli_w
-import tomllib
 
 from .casecheck import (
     REQUIRED_SECTIONS,

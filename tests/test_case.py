@@ -2,9 +2,13 @@
 
 import copy
 
+try:
+    import tomllib
+except ModuleNotFoundError:  # Python 3.10
+    import tomli as tomllib
+
 import numpy as np
 import pytest
-import tomllib
 from box_case import BASE, make_case
 from heatsoak.core.case import case_to_toml, check_case, load_case
 from heatsoak.core.cli import main

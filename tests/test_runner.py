@@ -6,10 +6,14 @@ import subprocess
 import sys
 from pathlib import Path
 
+try:
+    import tomllib
+except ModuleNotFoundError:  # Python 3.10
+    import tomli as tomllib
+
 import meshio
 import numpy as np
 import pytest
-import tomllib
 from box_case import make_case
 from heatsoak.core import runner
 from heatsoak.core.case import case_from_data, load_case
