@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Optional
 
 import numpy as np
 import scipy.sparse as sp
@@ -66,7 +65,7 @@ class RegionStats:
         return out
 
 
-def first_crossing(times, values, threshold: float) -> Optional[float]:
+def first_crossing(times, values, threshold: float) -> float | None:
     """First time a sampled history reaches ``threshold``, or None.
 
     The history starts on one side of the threshold; the crossing is the
@@ -133,8 +132,8 @@ class Recorder:
         n = 0 if probes is None else len(probes)
         self.thresholds = list(thresholds) if thresholds is not None else [None] * n
         self._t, self._p, self._r = [], [], []
-        self.minimum: Optional[Extreme] = None
-        self.maximum: Optional[Extreme] = None
+        self.minimum: Extreme | None = None
+        self.maximum: Extreme | None = None
 
     def record(self, t: float, T: np.ndarray):
         """Record one step; returns (probe values (k,), region stats (n_regions, 3))."""
