@@ -17,6 +17,9 @@ Layout (all tables but ``[mesh]``, ``[material.*]``, ``[initial]`` and
     [initial]
     temperature = 20         # degC
     region = { body = 40 }   # per-region values (optional)
+    file = "start.vtu"       # or a nodal field: point array "temperature" of a
+                             # file on the same mesh, or a previous run's
+                             # temperature.xdmf (its last step)
     [boundary.bore]          # a surface group; groups not listed are insulated
     kind = "temperature"     # temperature | heat_flux | convection | insulated
     ramp = { start = 20, end = 180, at = 0, over = 600 }   # or value = 180, or table = "file.csv"
@@ -140,7 +143,7 @@ def _build(data, base_dir, mesh: Mesh | None, source: str):
         "mesh_file": mesh_file,
         "unit": unit,
         "materials": _read_materials(ck, data, base_dir, mesh),
-        "initial": _read_initial(ck, data, mesh),
+        "initial": _read_initial(ck, data, mesh, base_dir, unit),
         "boundaries": _read_boundaries(ck, data, base_dir, mesh),
         "time": _read_time(ck, data),
         "probes": _read_probes(ck, data, mesh, unit),

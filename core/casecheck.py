@@ -17,7 +17,8 @@ import numpy as np
 
 from .errors import InputError, ScheduleError
 from .linsolve import SOLVERS
-from .meshread import UNITS, read_mesh
+from .fieldio import read_nodal_field
+from .meshread import UNITS, read_mesh, unit_scale
 from .probes import distance_to_boundary, locate
 from .problem import BOUNDARY_KINDS, MASS_KINDS, Boundary, Material, Probe, TimeSettings
 from .schedule import parse_schedule
@@ -28,7 +29,7 @@ SECTIONS = ("title", "mesh", "material", "initial", "boundary", "time", "probe",
 REQUIRED_SECTIONS = ("mesh", "material", "initial", "time")
 MESH_KEYS = ("file", "unit", "feature_angle")
 MATERIAL_KEYS = ("density", "specific_heat", "conductivity", "source", "label")
-INITIAL_KEYS = ("temperature", "region")
+INITIAL_KEYS = ("temperature", "region", "file")
 SCHEDULE_KEYS = ("value", "ramp", "table")
 BOUNDARY_KEYS = {
     "temperature": ("kind", *SCHEDULE_KEYS),
@@ -193,8 +194,25 @@ def _read_materials(ck: _Checker, data: dict, base_dir: Path, mesh) -> dict:
     return {r: out[r if r in sec else "*"] for r in mesh.region_names if (r if r in sec else "*") in out}
 
 
-def _read_initial(ck: _Checker, data: dict, mesh):
-    sec = ck.table(data.get("initial", {}), "initial", INITIAL_KEYS, required=("temperature",))
+def _read_initial_file(ck: _Checker, value, base_dir: Path, mesh, unit: str):
+    if not isinstance(value, str):
+        ck.bad("initial.file", value, "expected a file name")
+        return None
+    try:
+        return read_nodal_field(Path(base_dir) / value, mesh, unit_scale(unit))
+    except InputError as exc:
+        ck.add("initial.file", str(exc))
+        return None
+
+
+def _read_initial(ck: _Checker, data: dict, mesh, base_dir: Path = Path("."), unit: str = "m"):
+    raw = data.get("initial", {})
+    need = () if isinstance(raw, dict) and "file" in raw else ("temperature",)
+    sec = ck.table(raw, "initial", INITIAL_KEYS, required=need)
+    if "file" in sec:
+        if mesh is None:
+            return None
+        return _read_initial_file(ck, sec["file"], base_dir, mesh, unit)
     t0 = ck.number(sec, "initial", "temperature")
     per = sec.get("region", {})
     if not isinstance(per, dict):

@@ -64,7 +64,7 @@ def read_mesh(path, unit: str = "m", feature_angle: float = 30.0) -> Mesh:
     """
     scale = unit_scale(unit)
     path = Path(path)
-    raw, notes = _read_meshio(path)
+    raw, notes = read_raw(path)
     points, cells, region, names, tagged, more = split_blocks(raw, path)
     return build_mesh(
         points * scale,
@@ -102,7 +102,7 @@ def _reader(fmt: str):
         return lambda name: meshio.read(name, file_format=fmt)
 
 
-def _read_meshio(path: Path):
+def read_raw(path: Path):
     """meshio's reading of ``path``, with every failure turned into MeshError.
 
     What the reader prints is kept as warnings.
