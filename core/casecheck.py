@@ -16,8 +16,8 @@ from pathlib import Path
 import numpy as np
 
 from .errors import InputError, ScheduleError
-from .linsolve import SOLVERS
 from .fieldio import read_nodal_field
+from .linsolve import SOLVERS
 from .meshread import UNITS, read_mesh, unit_scale
 from .probes import distance_to_boundary, locate
 from .problem import BOUNDARY_KINDS, MASS_KINDS, Boundary, Material, Probe, TimeSettings

@@ -31,7 +31,7 @@ def _read_points_and_values(path: Path, name: str):
                 if reader.num_steps > 0:
                     _, point_data, _ = reader.read_data(reader.num_steps - 1)
                     return points, point_data
-        except Exception:  # not a time series: fall through to a plain read
+        except Exception:  # noqa: BLE001, S110 - not a time series: fall through to a plain read
             pass
     raw, _ = read_raw(path)
     return raw.points, raw.point_data
