@@ -1,0 +1,127 @@
+"""Start ``heatsoak ui`` and drive it in headless chromium (helpers for tests/test_ui_browser.py)."""
+
+from __future__ import annotations
+
+import io
+import os
+import socket
+import subprocess
+import sys
+import tempfile
+import time
+import urllib.request
+from pathlib import Path
+
+import numpy as np
+
+CHROMIUM = "/usr/bin/chromium"
+CHROMIUM_ARGS = [
+    "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+    "--disable-background-networking", "--disable-component-update", "--disable-sync",
+]
+
+
+def free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+class UiServer:
+    """``heatsoak ui CASE --server`` on a free loopback port, as a subprocess."""
+
+    def __init__(self, case: Path, data_dir: Path, log_dir: Path):
+        self.port = free_port()
+        self.log_path = log_dir / "ui-server.log"
+        self._log = open(self.log_path, "w")
+        env = {**os.environ, "PYTHONUNBUFFERED": "1"}
+        cmd = [sys.executable, "-m", "heatsoak.core.cli", "ui", str(case), "--data-dir", str(data_dir),
+               "--server", "--port", str(self.port), "--host", "127.0.0.1"]
+        self.proc = subprocess.Popen(cmd, stdout=self._log, stderr=subprocess.STDOUT, env=env)
+        self.url = f"http://127.0.0.1:{self.port}/"
+
+    def wait_ready(self, timeout: float = 60.0) -> None:
+        end = time.time() + timeout
+        while time.time() < end:
+            if self.proc.poll() is not None:
+                raise RuntimeError(f"heatsoak ui exited early:\n{self.log()}")
+            try:
+                with urllib.request.urlopen(self.url, timeout=2) as r:
+                    if r.status == 200:
+                        return
+            except OSError:
+                time.sleep(0.3)
+        raise TimeoutError(f"heatsoak ui not ready after {timeout} s:\n{self.log()}")
+
+    def log(self) -> str:
+        if not self._log.closed:
+            self._log.flush()
+        return self.log_path.read_text(errors="replace")
+
+    def stop(self) -> None:
+        self.proc.terminate()
+        try:
+            self.proc.wait(10)
+        except subprocess.TimeoutExpired:
+            self.proc.kill()
+        self._log.close()
+
+
+def launch_browser(playwright, width: int = 1600, height: int = 1000):
+    """A persistent headless chromium context with a fresh profile folder."""
+    return playwright.chromium.launch_persistent_context(
+        tempfile.mkdtemp(prefix="hs-chromium-"), executable_path=CHROMIUM, args=CHROMIUM_ARGS, headless=True,
+        viewport={"width": width, "height": height}, accept_downloads=True,
+    )
+
+
+def wait_for(predicate, timeout: float = 30.0, interval: float = 0.2, what: str = "condition"):
+    end = time.time() + timeout
+    while time.time() < end:
+        value = predicate()
+        if value:
+            return value
+        time.sleep(interval)
+    raise TimeoutError(f"timed out waiting for {what}")
+
+
+def view_pixels(page, path: Path) -> np.ndarray:
+    """Screenshot of the 3D view as an (h, w, 3) array, also saved to ``path``."""
+    import imageio.v3 as iio
+
+    png = page.locator(".hs-view").screenshot(path=str(path))
+    return iio.imread(io.BytesIO(png))[..., :3].astype(float)
+
+
+def fill(page, selector: str, value) -> None:
+    """Type into a vuetify text field (the id sits on the input) and let the state sync."""
+    field = page.locator(selector)
+    field.fill(str(value))
+    field.dispatch_event("change")
+
+
+def choose(page, field_selector: str, option: str) -> None:
+    """Pick ``option`` in a vuetify select whose input has ``field_selector``."""
+    page.locator(field_selector).locator("xpath=ancestor::div[contains(@class,'v-field')]").first.click()
+    page.get_by_role("option", name=option).first.click()
+    settle(page)
+
+
+def settle(page, ms: int = 600) -> None:
+    """Give the server a moment to answer a change (it may push values back)."""
+    page.wait_for_timeout(ms)
+
+
+def select_group(page, name: str) -> None:
+    """Select a surface group in the legend and wait until the editor shows it."""
+    page.locator(".hs-group", has_text=name).first.click()
+    page.wait_for_selector(f"#hs-editor >> text=Condition on {name}")
+    settle(page)
+
+
+def open_section(page, title: str) -> None:
+    """Expand a set-up section (expansion panel) by its title, if it is closed."""
+    panel = page.locator(".hs-section", has_text=title).first
+    if "v-expansion-panel--active" not in (panel.get_attribute("class") or ""):
+        panel.locator(".v-expansion-panel-title").click()
+        page.wait_for_timeout(300)

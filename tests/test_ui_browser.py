@@ -1,0 +1,198 @@
+"""The browser UI driven in headless chromium: set up, run, animate, probe, export, errors.
+
+One ``heatsoak ui`` server (a subprocess on a free loopback port) serves every
+test in this file, in order. Screenshots go to $HEATSOAK_UI_SHOTS or a pytest
+temporary folder; the path is printed.
+"""
+
+from __future__ import annotations
+
+import csv
+import os
+import shutil
+import subprocess
+import sys
+import time
+import zipfile
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+sys.path.insert(0, str(Path(__file__).parent / "browser"))
+from uidriver import (UiServer, choose, fill, launch_browser, open_section, select_group, settle,  # noqa: E402
+                      view_pixels, wait_for)
+
+pytestmark = pytest.mark.browser
+playwright_api = pytest.importorskip("playwright.sync_api")
+if not Path("/usr/bin/chromium").exists():
+    pytest.skip("needs Debian's chromium at /usr/bin/chromium", allow_module_level=True)
+
+MESHES = Path(__file__).resolve().parent.parent / "meshes"
+DEMO = MESHES / "demo.toml" if (MESHES / "demo.toml").exists() else MESHES / "platen_warmup.toml"
+
+#: An ASCII STL: a single triangle, a mesh with no tetrahedra.
+FLAT_STL = """solid flat
+facet normal 0 0 1
+outer loop
+vertex 0 0 0
+vertex 1 0 0
+vertex 0 1 0
+endloop
+endfacet
+endsolid flat
+"""
+
+
+@pytest.fixture(scope="module")
+def shots(tmp_path_factory) -> Path:
+    folder = Path(os.environ.get("HEATSOAK_UI_SHOTS") or tmp_path_factory.mktemp("ui-shots"))
+    folder.mkdir(parents=True, exist_ok=True)
+    print(f"\nUI screenshots in {folder}")
+    return folder
+
+
+@pytest.fixture(scope="module")
+def data_dir(tmp_path_factory) -> Path:
+    folder = tmp_path_factory.mktemp("ui-data")
+    for path in MESHES.iterdir():
+        if path.suffix in (".toml", ".msh", ".vtu", ".csv"):
+            shutil.copy(path, folder / path.name)
+    (folder / "flat.stl").write_text(FLAT_STL)
+    return folder
+
+
+@pytest.fixture(scope="module")
+def server(data_dir, shots):
+    srv = UiServer(data_dir / DEMO.name, data_dir, shots)
+    try:
+        srv.wait_ready()
+        yield srv
+    finally:
+        srv.stop()
+    assert "Traceback" not in srv.log(), srv.log()
+
+
+@pytest.fixture(scope="module")
+def page(server):
+    with playwright_api.sync_playwright() as p:
+        browser = launch_browser(p)
+        pg = browser.new_page()
+        pg.goto(server.url)
+        pg.wait_for_selector("#hs-facts", timeout=30_000)
+        yield pg
+        browser.close()
+
+
+def inside_point(case_dir: Path, case_name: str) -> list:
+    """A point well inside the demo mesh, in the mesh's unit (the centroid of its largest element)."""
+    from heatsoak.core.case import load_case
+    from heatsoak.core.meshread import UNITS
+
+    case = load_case(case_dir / case_name)
+    m = case.mesh
+    corners = m.points[m.cells[:, :4]]
+    vol = np.abs(np.einsum("ij,ij->i", corners[:, 1] - corners[:, 0],
+                           np.cross(corners[:, 2] - corners[:, 0], corners[:, 3] - corners[:, 0])))
+    return (corners[np.argmax(vol)].mean(axis=0) / UNITS[case.unit]).round(4).tolist()
+
+
+def frame_number(page) -> int:
+    text = page.inner_text("#hs-frame-time")
+    return int(text.split("frame ")[1].split(" of")[0]) if "frame" in text else 0
+
+
+def read_probe_csv(path) -> dict:
+    with open(path, newline="") as f:
+        rows = list(csv.reader(f))
+    body = np.array(rows[1:], dtype=float)
+    return {name: body[:, i] for i, name in enumerate(rows[0])}
+
+
+def test_ramp_run_animate_probe_and_export_match_the_cli(page, server, data_dir, shots, tmp_path):
+    group = "base"
+    select_group(page, group)
+    choose(page, "#hs-kind", "Temperature (Dirichlet)")
+    page.locator("#hs-shape button", has_text="ramp").click()
+    settle(page)
+    for key, value in (("start", 22), ("end", 150), ("at", 0), ("over", 120)):
+        fill(page, f"#hs-ramp-{key}", value)
+    open_section(page, "Start and time")
+    fill(page, "#hs-end", 240)
+    fill(page, "#hs-step", 20)
+    fill(page, "#hs-every", 1)
+    x, y, z = inside_point(data_dir, DEMO.name)
+    open_section(page, "Probes")
+    for key, value in (("name", "T1"), ("x", x), ("y", y), ("z", z), ("threshold", 40)):
+        fill(page, f"#hs-p-{key}", value)
+    page.click("#hs-add-probe")
+    page.wait_for_selector("#hs-probe-list >> text=T1")
+    page.wait_for_selector("#hs-run:not([disabled])", timeout=15_000)
+    page.screenshot(path=str(shots / "1-setup.png"))
+
+    page.click("#hs-run")
+    wait_for(lambda: "complete" in page.inner_text("#hs-progress-text"), 90, what="the run to complete")
+    page.wait_for_selector("#hs-player")
+    assert page.locator("#hs-progress").get_attribute("aria-valuenow") in ("100", "100.0")
+    page.wait_for_selector("#hs-frame-time >> text=frame 1 of")
+    time.sleep(1.0)
+    early = view_pixels(page, shots / "2-early-frame.png")
+
+    page.click("#hs-play")
+    wait_for(lambda: frame_number(page) >= 10, 30, what="playback to reach frame 10")
+    page.click("#hs-play")  # pause
+    time.sleep(1.0)
+    late = view_pixels(page, shots / "3-late-frame.png")
+    page.screenshot(path=str(shots / "4-results.png"))
+    # The body warms from the initial temperature: the colour-mapped pixels change a lot.
+    assert np.abs(late - early).mean() > 5.0
+    assert np.abs(late.mean(axis=(0, 1)) - early.mean(axis=(0, 1))).max() > 5.0
+
+    row = page.locator("#hs-probe-values .hs-probe-row", has_text="T1").first
+    ui_last = float(row.locator(".hs-last").inner_text())
+
+    with page.expect_download() as dl:
+        page.click("#hs-export-probes")
+    dl.value.save_as(tmp_path / "ui-probes.csv")
+    with page.expect_download() as dl:
+        page.click("#hs-export-bundle")
+    dl.value.save_as(tmp_path / "bundle.zip")
+    with zipfile.ZipFile(tmp_path / "bundle.zip") as z:
+        z.extractall(tmp_path / "bundle")
+
+    out = tmp_path / "cli-results"
+    done = subprocess.run([sys.executable, "-m", "heatsoak.core.cli", "run", str(tmp_path / "bundle" / "case.toml"),
+                           "--out", str(out), "--quiet"], capture_output=True, text=True, timeout=120)
+    assert done.returncode == 0, done.stderr
+    ui, cli = read_probe_csv(tmp_path / "ui-probes.csv"), read_probe_csv(out / "probes.csv")
+    assert set(ui) == set(cli) and "T1" in ui
+    for name in ui:
+        np.testing.assert_allclose(ui[name], cli[name], rtol=1e-9, atol=1e-9)
+    assert abs(ui_last - cli["T1"][-1]) < 1e-3
+
+
+def test_bad_table_is_marked_at_the_field_without_traceback(page, server, shots):
+    page.click("#hs-view-mode button:has-text('set-up')")
+    select_group(page, "base")
+    choose(page, "#hs-kind", "Temperature (Dirichlet)")
+    page.locator("#hs-shape button", has_text="table").click()
+    settle(page)
+    fill(page, "#hs-table", "0, 20\n100, 50\n50, 80")
+    message = page.locator(".hs-editor .v-messages__message", has_text="does not increase")
+    message.wait_for(timeout=15_000)
+    assert "50" in message.inner_text()
+    assert page.locator("#hs-run").is_disabled()
+    assert "does not increase" in page.inner_text("#hs-run-reason")
+    page.screenshot(path=str(shots / "5-bad-table.png"))
+    assert "Traceback" not in page.content()
+    assert "Traceback" not in server.log()
+
+
+def test_mesh_without_tetrahedra_gives_a_clear_message(page, server, shots):
+    page.locator(".hs-file", has_text="flat.stl").click()
+    alert = page.locator("#hs-mesh-error")
+    alert.wait_for(timeout=15_000)
+    text = alert.inner_text()
+    assert "no tetrahedra" in text and "flat.stl" in text
+    assert "Traceback" not in page.content()
+    page.screenshot(path=str(shots / "6-no-tetrahedra.png"))
