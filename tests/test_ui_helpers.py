@@ -1,0 +1,158 @@
+"""Plain-Python helpers of the UI plugin: run labels, forms, access rules, data folder, material library."""
+
+from __future__ import annotations
+
+import copy
+
+import pytest
+
+from heatsoak.core.case import check_case_data
+from heatsoak.core.errors import InputError
+from heatsoak.core.generate import box_mesh
+from heatsoak.core.materials import LIBRARY, get_material
+from heatsoak.plugin import access, files, forms, rundiff
+
+RAMP_CASE = {
+    "mesh": {"file": "box.msh", "unit": "m"},
+    "boundary": {"bore": {"kind": "temperature", "ramp": {"start": 20.0, "end": 200.0, "at": 0.0, "over": 300.0}}},
+    "time": {"end": 600.0, "step": 10.0, "theta": 1.0},
+}
+
+
+# ------------------------------------------------------------------ run labels
+def test_label_names_the_changed_ramp_duration_with_units():
+    new = copy.deepcopy(RAMP_CASE)
+    new["boundary"]["bore"]["ramp"]["over"] = 600.0
+    assert rundiff.run_label(RAMP_CASE, new) == "bore ramp over 300 s -> 600 s"
+
+
+def test_label_lists_several_changes_and_the_first_run():
+    new = copy.deepcopy(RAMP_CASE)
+    new["time"]["end"] = 900.0
+    new["time"]["step"] = 5.0
+    assert rundiff.run_label(None, RAMP_CASE) == "first run"
+    assert rundiff.run_label(RAMP_CASE, new) == "end time 600 s -> 900 s; time step 10 s -> 5 s"
+
+
+def test_label_says_when_a_condition_changes_kind():
+    new = copy.deepcopy(RAMP_CASE)
+    new["boundary"]["bore"] = {"kind": "convection", "h": 10.0, "ambient": 20.0}
+    assert rundiff.run_label(RAMP_CASE, new) == "bore temperature ramp -> convection"
+
+
+def test_label_of_an_unchanged_case_and_of_many_changes():
+    assert rundiff.run_label(RAMP_CASE, copy.deepcopy(RAMP_CASE)) == "same case again"
+    new = copy.deepcopy(RAMP_CASE)
+    new["time"] = {"end": 1.0, "step": 0.5, "theta": 0.5}
+    new["boundary"]["bore"]["ramp"]["end"] = 100.0
+    assert rundiff.run_label(RAMP_CASE, new, limit=2).endswith("; and 2 more")
+
+
+# ----------------------------------------------------------------------- forms
+def test_forms_become_the_case_file_shapes():
+    form = forms.default_bc() | {"kind": "temperature", "shape": "ramp", "start": "20", "end": 180, "at": 0,
+                                 "over": "600"}
+    assert forms.boundary_entry(form, "bore") == {
+        "kind": "temperature", "ramp": {"start": 20.0, "end": 180.0, "at": 0.0, "over": 600.0}}
+    conv = forms.default_bc() | {"kind": "convection", "shape": "constant", "value": 25, "h": "12.5"}
+    assert forms.boundary_entry(conv, "top") == {"kind": "convection", "h": 12.5, "ambient": 25.0}
+    flux = forms.default_bc() | {"kind": "heat_flux", "shape": "table", "table": "time;value\n0;0\n60;1500"}
+    assert forms.boundary_entry(flux, "face") == {"kind": "heat_flux", "table": [[0.0, 0.0], [60.0, 1500.0]]}
+
+
+def test_forms_round_trip_through_case_entries():
+    for form in (
+        forms.default_bc() | {"kind": "temperature", "shape": "ramp", "start": 20.0, "end": 90.0, "at": 5.0, "over": 60.0},
+        forms.default_bc() | {"kind": "convection", "shape": "constant", "value": 30.0, "h": 8.0},
+        forms.default_bc() | {"kind": "heat_flux", "shape": "table", "table": "0, 10\n5, 20"},
+    ):
+        back = forms.bc_form_from_case(forms.boundary_entry(form, "g"))
+        assert forms.boundary_entry(back, "g") == forms.boundary_entry(form, "g")
+
+
+def test_unreadable_table_text_names_the_row():
+    with pytest.raises(forms.FormError) as err:
+        forms.parse_table_text("0, 20\n10, abc\n", "boundary.bore.table")
+    assert err.value.key == "boundary.bore.table" and "row 2" in err.value.message
+
+
+def test_core_issue_keys_map_to_panel_fields():
+    assert forms.field_key("boundary.bore.ramp.over") == "boundary.bore.over"
+    assert forms.field_key("boundary.bore.table[3]") == "boundary.bore.table"
+    assert forms.field_key("boundary.top.ambient.ramp.at") == "boundary.top.at"
+    assert forms.field_key("boundary.top.ambient") == "boundary.top.value"
+    assert forms.field_key("probe[2].at") == "probe.2"
+    assert forms.field_key("time.step") == "time.step"
+
+
+def test_a_non_increasing_table_is_reported_at_its_field_by_the_core_checks(tmp_path):
+    mesh = box_mesh((2, 2, 2))
+    bc = forms.default_bc() | {"kind": "temperature", "shape": "table", "table": "0, 20\n100, 50\n50, 80"}
+    mat = {"density": 7800, "specific_heat": 450, "conductivity": 50}
+    case, errors = forms.case_from_forms({"file": "box.msh", "unit": "m"}, {"xmin": bc}, {"box": mat}, 20,
+                                         {"end": 100, "step": 10, "theta": 1, "mass": "consistent"}, [])
+    assert errors == []
+    fields = forms.issues_by_field(check_case_data(case, tmp_path, mesh=mesh))
+    assert list(fields) == ["boundary.xmin.table"]
+    assert "does not increase" in fields["boundary.xmin.table"][0]
+
+
+# ---------------------------------------------------------------------- access
+def test_loopback_needs_no_key_and_other_hosts_get_one():
+    assert access.decide_access("127.0.0.1").key is None
+    assert access.decide_access("::1").key is None
+    shared = access.decide_access("0.0.0.0")
+    assert shared.generated and len(shared.key) >= 24
+    assert f"?secret={shared.key}" in shared.url(8080)
+    assert "access key" in shared.notice(8080)
+
+
+def test_key_file_is_read_and_checked(tmp_path):
+    good = tmp_path / "key"
+    good.write_text("a-long_key-of-letters123\n")
+    assert access.decide_access("10.0.0.5", good).key == "a-long_key-of-letters123"
+    bad = tmp_path / "short"
+    bad.write_text("abc")
+    with pytest.raises(InputError, match="at least 12"):
+        access.decide_access("10.0.0.5", bad)
+
+
+# ----------------------------------------------------------------- data folder
+def test_browsing_never_leaves_the_data_folder(tmp_path):
+    (tmp_path / "sub").mkdir()
+    (tmp_path / "sub" / "part.msh").write_text("x")
+    (tmp_path / "notes.txt").write_text("x")
+    rows = files.list_files(tmp_path)
+    assert [(r["name"], r["kind"]) for r in rows] == [("sub", "folder")]
+    assert files.list_files(tmp_path, "sub")[0]["path"] == "sub/part.msh"
+    for name in ("../etc/passwd", "/etc/passwd", "sub/../../x"):
+        with pytest.raises(InputError, match="inside the data folder"):
+            files.inside(tmp_path, name)
+
+
+def test_uploads_over_the_limit_or_of_other_types_are_refused(tmp_path):
+    with pytest.raises(InputError, match="over the limit"):
+        files.save_upload(tmp_path, "big.msh", b"x" * 11, limit=10)
+    with pytest.raises(InputError, match="not a mesh"):
+        files.save_upload(tmp_path, "run.sh", b"x")
+    path = files.save_upload(tmp_path, "../../weird name.msh", b"data")
+    assert path == tmp_path / "weird_name.msh" and path.read_bytes() == b"data"
+
+
+# ------------------------------------------------------------ material library
+@pytest.mark.parametrize(
+    "key, alpha_1e6",
+    # Thermal diffusivity column of the same tables (Incropera et al., Fundamentals of Heat and Mass
+    # Transfer, 6th ed., Tables A.1 and A.3, 300 K, from memory): a check that rho, c and k were copied
+    # consistently.
+    [("carbon_steel", 18.8), ("stainless_304", 3.95), ("aluminium", 97.1), ("aluminium_2024", 73.0),
+     ("copper", 117.0), ("brick", 0.449), ("glass_plate", 0.747), ("granite", 1.37)],
+)
+def test_library_values_agree_with_the_tables_diffusivity(key, alpha_1e6):
+    assert get_material(key).diffusivity * 1e6 == pytest.approx(alpha_1e6, rel=0.02)
+
+
+def test_library_entries_name_their_source():
+    assert all("Incropera" in m.source for m in LIBRARY.values())
+    with pytest.raises(InputError, match="not in the library"):
+        get_material("unobtainium")
