@@ -101,6 +101,19 @@ class Operators:
         pts = [np.asarray(s.breakpoints(), dtype=float) for s in scheds]
         return np.unique(np.concatenate(pts)) if pts else np.zeros(0)
 
+    def jumps(self) -> np.ndarray:
+        """Sorted times t > 0 [s] where any schedule's value jumps (not just its slope)."""
+        out = []
+        for s in [s for s, _, _ in self.loads] + list(self.fixed_schedules):
+            bp = np.unique(np.asarray(s.breakpoints(), dtype=float))
+            for prev, b in zip(np.concatenate([[-np.inf], bp[:-1]]), bp):
+                if b <= 0:
+                    continue
+                before = left_value(s, max(prev, 0.0), b)
+                if abs(float(s(b)) - before) > 1e-12 * max(abs(before), abs(float(s(b))), 1e-300):
+                    out.append(float(b))
+        return np.unique(out)
+
 
 def left_value(schedule, start: float, t: float) -> float:
     """Value of ``schedule`` as time rises to ``t`` within a step from ``start``.

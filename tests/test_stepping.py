@@ -6,6 +6,7 @@ import scipy.linalg as sla
 
 from heatsoak.core.errors import InputError, StabilityError
 from heatsoak.core.generate import box_mesh
+from heatsoak.core.operators import left_value
 from heatsoak.core.problem import Boundary, Material, Problem, TimeSettings
 from heatsoak.core.schedule import Constant, Ramp, Table
 from heatsoak.core.stepping import ThetaMethod, lambda_max, step_times
@@ -57,6 +58,21 @@ def test_steps_land_exactly_on_breakpoints_and_output_times():
         assert mark in times  # exact equality: probes and outputs read these steps
     assert times == sorted(times) and times[0] == 0.0
     assert stepper.status == "complete" and stepper.step_count == len(times) - 1
+
+
+def test_schedules_are_seen_from_inside_the_step_at_its_end():
+    # A step ending on a jump sees the old value; on a corner, the value itself.
+    jump, ramp = Ramp(5.0, 9.0, 2.0, 0.0), Ramp(0.0, 10.0, 1.0, 4.0)
+    assert left_value(jump, 1.0, 2.0) == 5.0 and jump(2.0) == 9.0
+    assert left_value(ramp, 4.0, 5.0) == pytest.approx(10.0, rel=1e-15)
+    assert left_value(ramp, 0.0, 0.5) == 0.0
+
+
+def test_only_value_jumps_restart_the_backward_euler_steps():
+    problem = end_held(Ramp(0.0, 50.0, 3.0, 2.0), **{"xmax": Boundary("heat_flux", Ramp(0.0, 1e3, 7.0, 0.0))})
+    ops = ThetaMethod(problem, TimeSettings(end=10.0, step=1.0)).ops
+    np.testing.assert_array_equal(ops.jumps(), [7.0])
+    np.testing.assert_array_equal(ops.breakpoints(), [3.0, 5.0, 7.0])
 
 
 # -- factorisations ----------------------------------------------------------------------------
@@ -179,6 +195,21 @@ def test_backward_euler_start_damps_the_ringing():
     low, high = _extremes(None)
     assert low > -1e-9
     assert high < 100.0 + 1e-9
+
+
+@pytest.mark.parametrize("at", [100.0, 110.0])
+def test_backward_euler_start_also_follows_a_jump_after_the_start(at):
+    # The same drop as above at 100 s (on the 20 s grid) or 110 s (off it): Crank-Nicolson
+    # without half steps rings (measured -26 K and -8.4 K); with them, restarted at the jump, not at all.
+    problem = end_held(Ramp(100.0, 0.0, at, 0.0), initial=100.0)
+    _, plain = run(problem, end=400.0, step=20.0, theta=0.5, start_steps=0)
+    stepper, damped = run(problem, end=400.0, step=20.0, theta=0.5)
+    assert min(T.min() for _, T in plain) < -5.0
+    assert min(T.min() for _, T in damped) > -1e-9
+    times = [t for t, _ in damped]
+    i = times.index(at)
+    assert times[i + 1] - at <= 10.0  # half steps right after the jump
+    assert stepper.energy()["relative_imbalance"] < 1e-12
 
 
 # -- run control -------------------------------------------------------------------------------

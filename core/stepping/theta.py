@@ -129,17 +129,18 @@ class ThetaMethod(Integrator):
         dt = self.settings.step
         marks = list(self.ops.breakpoints()) + list(self.settings.output_times)
         grid = step_times(self.end, dt, marks)
+        # Rannacher start: after t = 0 and after every jump of a schedule, the first steps are
+        # replaced by backward-Euler half steps (their end times are kept in self._damped).
+        damped = []
         if self.start_steps > 0:
-            # Rannacher start: the first steps are replaced by backward-Euler half steps.
             n_full = (self.start_steps + 1) // 2
-            first = grid[:n_full]
-            lead = [0.0] + list(first)
-            halves = [0.5 * (a + b) for a, b in zip(lead[:-1], lead[1:])]
-            extra = np.array(sorted(halves + list(first)))[: self.start_steps]
-            grid = np.unique(np.concatenate([extra, grid]))
-            self._start_until = float(extra[-1])
-        else:
-            self._start_until = -1.0
+            for r in [0.0, *(j for j in self.ops.jumps() if j < self.end)]:
+                first = list(grid[grid > r][:n_full])
+                lead = [r] + first
+                halves = [0.5 * (a + b) for a, b in zip(lead[:-1], lead[1:])]
+                damped += sorted(halves + first)[: self.start_steps]
+            grid = np.unique(np.concatenate([damped, grid]))
+        self._damped = set(damped)
         return grid
 
     def _solver(self, dt: float, theta: float):
@@ -164,7 +165,7 @@ class ThetaMethod(Integrator):
     def _advance(self, t: float, t_new: float, T: np.ndarray) -> np.ndarray:
         ops, f, p = self.ops, self.ops.free, self.ops.fixed
         dt = t_new - t
-        theta = 1.0 if t_new <= self._start_until + 1e-12 * self.end else self.theta
+        theta = 1.0 if t_new in self._damped else self.theta
         # values inside the step: at t_new the limit from the left, so a jump at t_new acts after it
         Tp0, Tp1 = T[p], ops.fixed_values(t_new, start=t)
         F0, F1 = ops.load(t), ops.load(t_new, start=t)
