@@ -118,7 +118,7 @@ def test_lambda_max_matches_a_dense_generalised_eigensolver(mass):
     M = np.diag(stepper._Mff) if mass == "lumped" else stepper._Mff.toarray()
     assert K.shape[0] > 50
     dense = sla.eigh(K, M, eigvals_only=True)[-1]
-    assert lambda_max(stepper._Kff, stepper._Mff) == pytest.approx(dense, rel=1e-8)
+    assert lambda_max(stepper._Kff, stepper._Mff) == pytest.approx(dense, rel=1e-6)  # its Lanczos tolerance
 
 
 def _limit_and_norms(mass, theta, factor, monkeypatch=None):
@@ -144,7 +144,7 @@ def _limit_and_norms(mass, theta, factor, monkeypatch=None):
 def test_explicit_step_above_the_limit_raises_and_names_it(mass, theta):
     # Common practice, no source: the theta-method is stable for dt <= 2 / ((1 - 2 theta) lambda_max).
     limit, stepper, norms = _limit_and_norms(mass, theta, 0.99)
-    assert stepper.dt_critical == pytest.approx(limit, rel=1e-8)
+    assert stepper.dt_critical == pytest.approx(limit, rel=1e-6)
     with pytest.raises(StabilityError) as err:
         ThetaMethod(end_held(), TimeSettings(end=1.0, step=1.01 * limit, theta=theta, mass=mass))
     assert f"{limit:.4g} s" in str(err.value)

@@ -97,3 +97,31 @@ def test_two_material_bar_with_convection_has_the_series_resistance_profile(orde
     exact = np.where(x <= l1, 200.0 - q * x / k1, 200.0 - q * l1 / k1 - q * (x - l1) / k2)
     np.testing.assert_allclose(T, exact, rtol=1e-10)
     assert T[np.isclose(x, l1 + l2)].mean() == pytest.approx(20.0 + q / h, rel=1e-10)
+
+
+def test_quadratic_elements_reproduce_the_parabola_of_a_per_region_source():
+    # Steady conduction with sources f1 (x < a) and f2 (x > a), ends held at 0:
+    # -k T'' = f, T and k T' continuous at a (calculus). The exact field is piecewise
+    # quadratic with its kink on an element face, so P2 reproduces it to round-off.
+    length, a, k, f1, f2 = 0.2, 0.05, 2.0, 4.0e4, -1.0e4
+    mesh = box_mesh(
+        (8, 1, 1),
+        size=(length, 0.025, 0.025),
+        order=2,
+        regions=lambda c: ((c[:, 0] > a).astype(int), ("heated", "cooled")),
+    )
+    problem = Problem(
+        mesh,
+        {"heated": Material(1e6, 1.0, k, source=Constant(f1)), "cooled": Material(2e6, 1.0, k, source=Constant(f2))},
+        {"xmin": Boundary("temperature", Constant(0.0)), "xmax": Boundary("temperature", Constant(0.0))},
+        initial=0.0,
+    )
+    *_, (_, T) = ThetaMethod(problem, TimeSettings(end=1e12, step=1e11, theta=1.0)).steps()
+    # T = -f1 x^2/(2k) + c1 x on [0, a]; T = -f2 (x - L)^2/(2k) + c2 (x - L) on [a, L]; match T and T' at a
+    A = np.array([[a, -(a - length)], [1.0, -1.0]])
+    rhs = np.array([f1 * a**2 / (2 * k) - f2 * (a - length) ** 2 / (2 * k), f1 * a / k - f2 * (a - length) / k])
+    c1, c2 = np.linalg.solve(A, rhs)
+    x = mesh.points[:, 0]
+    exact = np.where(x <= a, -f1 * x**2 / (2 * k) + c1 * x, -f2 * (x - length) ** 2 / (2 * k) + c2 * (x - length))
+    np.testing.assert_allclose(T, exact, rtol=0, atol=1e-10 * np.abs(exact).max())
+    assert np.abs(exact).max() > 1.0
