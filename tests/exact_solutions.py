@@ -81,7 +81,7 @@ def wall_eigenvalues(biot: float, terms: int = 40) -> np.ndarray:
 
     Incropera et al., Fundamentals of Heat and Mass Transfer, §5.5 (from memory).
     """
-    f = lambda z: z * np.sin(z) - biot * np.cos(z)  # noqa: E731 - zeta tan zeta - Bi without poles
+    f = lambda z: z * np.sin(z) - biot * np.cos(z)
     return np.array([brentq(f, (n - 1) * np.pi + 1e-12, (n - 0.5) * np.pi) for n in range(1, terms + 1)])
 
 

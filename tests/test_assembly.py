@@ -11,7 +11,6 @@ import dataclasses
 import numpy as np
 import pytest
 import scipy.sparse as sp
-
 from heatsoak.core.assembly import Assembler
 from heatsoak.core.generate import box_mesh
 from heatsoak.core.mesh import TET_EDGES
@@ -19,8 +18,8 @@ from heatsoak.core.meshread import build_mesh
 from heatsoak.core.topology import signed_volumes
 
 skfem = pytest.importorskip("skfem")
-from skfem import Basis, BilinearForm, ElementTetP1, ElementTetP2, FacetBasis, LinearForm, MeshTet  # noqa: E402
-from skfem.helpers import dot, grad, mul  # noqa: E402
+from skfem import Basis, BilinearForm, ElementTetP1, ElementTetP2, FacetBasis, LinearForm, MeshTet
+from skfem.helpers import dot, grad, mul
 
 SIZE = (0.3, 0.2, 0.15)
 ROT = np.linalg.qr(np.array([[2.0, 1.0, 0.3], [0.5, 1.0, -1.0], [0.2, 0.4, 1.5]]))[0]

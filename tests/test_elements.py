@@ -5,7 +5,6 @@ from math import factorial
 
 import numpy as np
 import pytest
-
 from heatsoak.core.elements import tet_basis, tet_quadrature, tri_basis, tri_quadrature
 from heatsoak.core.generate import box_mesh
 from heatsoak.core.geometry import cell_volumes, face_areas, face_jacobians, isoparametric, p1_gradients

@@ -3,7 +3,6 @@
 import numpy as np
 import pytest
 import scipy.linalg as sla
-
 from heatsoak.core.errors import InputError, StabilityError
 from heatsoak.core.generate import box_mesh
 from heatsoak.core.operators import left_value
@@ -69,7 +68,7 @@ def test_schedules_are_seen_from_inside_the_step_at_its_end():
 
 
 def test_only_value_jumps_restart_the_backward_euler_steps():
-    problem = end_held(Ramp(0.0, 50.0, 3.0, 2.0), **{"xmax": Boundary("heat_flux", Ramp(0.0, 1e3, 7.0, 0.0))})
+    problem = end_held(Ramp(0.0, 50.0, 3.0, 2.0), xmax=Boundary("heat_flux", Ramp(0.0, 1e3, 7.0, 0.0)))
     ops = ThetaMethod(problem, TimeSettings(end=10.0, step=1.0)).ops
     np.testing.assert_array_equal(ops.jumps(), [7.0])
     np.testing.assert_array_equal(ops.breakpoints(), [3.0, 5.0, 7.0])
@@ -143,7 +142,7 @@ def _limit_and_norms(mass, theta, factor, monkeypatch=None):
 @pytest.mark.parametrize("theta", [0.0, 0.25])
 def test_explicit_step_above_the_limit_raises_and_names_it(mass, theta):
     # Common practice, no source: the theta-method is stable for dt <= 2 / ((1 - 2 theta) lambda_max).
-    limit, stepper, norms = _limit_and_norms(mass, theta, 0.99)
+    limit, stepper, _ = _limit_and_norms(mass, theta, 0.99)
     assert stepper.dt_critical == pytest.approx(limit, rel=1e-6)
     with pytest.raises(StabilityError) as err:
         ThetaMethod(end_held(), TimeSettings(end=1.0, step=1.01 * limit, theta=theta, mass=mass))
@@ -186,7 +185,7 @@ def _extremes(start_steps):
 def test_crank_nicolson_rings_after_a_sudden_change_without_the_backward_euler_start():
     # The CN amplification factor tends to -1 for stiff modes (common practice, no source):
     # the node next to the cooled end swings below the new end temperature (measured -26 K).
-    low, high = _extremes(0)
+    low, _ = _extremes(0)
     assert low < -10.0
 
 
@@ -270,9 +269,9 @@ def test_prescribed_nodes_take_their_schedule_value_at_the_start():
     assert np.count_nonzero(T0 == 20.0) == mesh.n_nodes - 4
 
 
-@pytest.mark.parametrize("settings", [dict(theta=1.5), dict(theta=-0.1), dict(step=0.0), dict(end=-1.0)])
+@pytest.mark.parametrize("settings", [{"theta": 1.5}, {"theta": -0.1}, {"step": 0.0}, {"end": -1.0}])
 def test_bad_time_settings_are_input_errors(settings):
-    base = dict(end=1.0, step=0.1, theta=1.0)
+    base = {"end": 1.0, "step": 0.1, "theta": 1.0}
     base.update(settings)
     with pytest.raises(InputError):
         ThetaMethod(end_held(), TimeSettings(**base))

@@ -9,7 +9,6 @@ rises as q A t / (rho c V) to round-off.
 
 import numpy as np
 import pytest
-
 from heatsoak.core.assembly import Assembler
 from heatsoak.core.generate import box_mesh
 from heatsoak.core.problem import Boundary, Material, Problem, TimeSettings

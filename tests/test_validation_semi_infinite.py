@@ -15,12 +15,11 @@ from exact_solutions import (
     semi_infinite_step,
     semi_infinite_table,
 )
-from scipy.special import erfc
-
 from heatsoak.core.generate import box_mesh
 from heatsoak.core.problem import Boundary, Material, Problem, TimeSettings
 from heatsoak.core.schedule import Constant, Ramp, Table
 from heatsoak.core.stepping import ThetaMethod
+from scipy.special import erfc
 
 ALPHA, K = 1e-5, 10.0
 LENGTH, END = 0.25, 100.0
@@ -49,7 +48,7 @@ def test_bar_is_long_enough_to_be_semi_infinite():
 def test_sudden_end_temperature_follows_the_erf_solution_with_second_order_convergence():
     # Carslaw & Jaeger, Conduction of Heat in Solids, 2nd ed., §2.4 (from memory):
     # T = Ts + (Ti - Ts) erf(x / (2 sqrt(alpha t))).
-    exact = lambda x, t: semi_infinite_step(x, t, ALPHA, 0.0, 100.0)  # noqa: E731
+    exact = lambda x, t: semi_infinite_step(x, t, ALPHA, 0.0, 100.0)
     # Measured: 0.104 K (n=100, dt=0.5 s), 0.026 K (n=200, dt=0.25 s), 0.4 K at n=50:
     # Crank-Nicolson with the backward-Euler start and P1 converge as h^2 + dt^2,
     # so the bounds are 1.5x the measured errors and the ratio is close to 4.
@@ -64,7 +63,7 @@ def test_sudden_end_temperature_follows_the_erf_solution_with_second_order_conve
 def test_sudden_end_temperature_with_quadratic_elements():
     # Same solution (Carslaw & Jaeger §2.4, from memory). P2, n=50, dt=0.5 s:
     # measured 9.1e-3 K; n=100, dt=0.25 s gave 1.5e-3 K (time error dominates), bound 1.5x.
-    exact = lambda x, t: semi_infinite_step(x, t, ALPHA, 0.0, 100.0)  # noqa: E731
+    exact = lambda x, t: semi_infinite_step(x, t, ALPHA, 0.0, 100.0)
     x, fields, _ = run_bar(Boundary("temperature", Constant(100.0)), 50, 0.5, order=2)
     assert max_error(x, fields, exact) < 0.014
 
@@ -92,7 +91,7 @@ def test_end_ramped_linearly_follows_the_repeated_erfc_integral(theta, bound):
 def test_end_following_a_table_is_the_superposition_of_ramps():
     # Duhamel's theorem (Carslaw & Jaeger §2.5, from memory): up 40 K in 20 s, hold, down 30 K.
     times, values = [0.0, 20.0, 50.0, 80.0], [0.0, 40.0, 40.0, 10.0]
-    exact = lambda x, t: semi_infinite_table(x, t, ALPHA, times, values)  # noqa: E731
+    exact = lambda x, t: semi_infinite_table(x, t, ALPHA, times, values)
     # Crank-Nicolson: measured 0.106 / 0.0236 / 0.0054 K at (n, dt) = (50, 1), (100, 0.5),
     # (200, 0.25): second order through the corners because steps land on them. Bound 1.5x.
     x, fields, stepper = run_bar(Boundary("temperature", Table(times, values)), 100, 0.5)

@@ -7,8 +7,13 @@ quoted beside each.
 
 import numpy as np
 import pytest
-from exact_solutions import slab_dirichlet, sphere_centre, wall_coefficients, wall_convection, wall_eigenvalues
-
+from exact_solutions import (
+    slab_dirichlet,
+    sphere_centre,
+    wall_coefficients,
+    wall_convection,
+    wall_eigenvalues,
+)
 from heatsoak.core.generate import box_mesh
 from heatsoak.core.meshread import read_mesh
 from heatsoak.core.probes import ProbeSet

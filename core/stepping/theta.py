@@ -23,6 +23,8 @@ of K v = lambda M v on the free nodes.
 
 from __future__ import annotations
 
+from itertools import pairwise
+
 import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
@@ -137,7 +139,7 @@ class ThetaMethod(Integrator):
             for r in [0.0, *(j for j in self.ops.jumps() if j < self.end)]:
                 first = list(grid[grid > r][:n_full])
                 lead = [r] + first
-                halves = [0.5 * (a + b) for a, b in zip(lead[:-1], lead[1:])]
+                halves = [0.5 * (a + b) for a, b in pairwise(lead)]
                 damped += sorted(halves + first)[: self.start_steps]
             grid = np.unique(np.concatenate([damped, grid]))
         self._damped = set(damped)
