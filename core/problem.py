@@ -109,9 +109,11 @@ class TimeSettings:
     mass : str
         "consistent" or "lumped".
     start_steps : int, optional
-        Number of backward-Euler half steps taken at the start instead of
-        the first theta steps, to damp the oscillations Crank-Nicolson shows
-        after a sudden change. None means 4 when 0.5 <= theta < 1, else 0.
+        Number of backward-Euler half steps taken at the start, and again
+        after every jump in a schedule's value, instead of the first theta
+        steps, to damp the oscillations Crank-Nicolson shows after a sudden
+        change (Rannacher, Numer. Math. 43 (1984), from memory).
+        None means 4 when 0.5 <= theta < 1, else 0.
     solver : str
         Linear solver name ("auto", "direct", "cg-jacobi", "cg-amg").
     output_times : tuple of float
