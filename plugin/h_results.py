@@ -117,7 +117,7 @@ def build_field(panel) -> None:
         origin = lo + (hi - lo) * float(state.hs_clip_pos) / 100.0
         clip = (AXES[state.hs_clip_axis], tuple(origin))
     diff = panel.runs.get(state.hs_diff_run) if state.hs_diff_run != run.id else None
-    title = f"{UNIT_LABEL[:-7]}difference [K]" if diff else UNIT_LABEL
+    title = f"{UNIT_LABEL.split(' [')[0]} difference [K]" if diff else UNIT_LABEL
     panel.scene.show_field(clip=clip, cmap=DIFFERENCE_CMAP if diff else TEMPERATURE_CMAP, title=title)
     state.hs_n_frames = len(run.series)
     state.hs_frame = min(int(state.hs_frame or 0), state.hs_n_frames - 1)

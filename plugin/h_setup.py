@@ -38,7 +38,7 @@ def register(panel) -> None:
     state, ctrl = panel.state, panel.ctrl
     panel.bcs, panel.mats = {}, {}
     state.update({
-        "hs_groups": [], "hs_group": None, "hs_regions": [], "hs_region": None, "hs_pick_mode": "group",
+        "hs_groups": [], "hs_group": None, "hs_editor_group": None, "hs_regions": [], "hs_region": None, "hs_pick_mode": "group",
         "hs_kinds": [{"value": v, "title": t} for v, t, _ in KINDS], "hs_bc_unit": "",
         "hs_library": [{"value": k, "title": m.name} for k, m in LIBRARY.items()]
         + [{"value": "custom", "title": "Custom values"}],
@@ -58,6 +58,7 @@ def register(panel) -> None:
         form = panel.bcs.get(hs_group)
         if form is not None:
             state.update({f"hs_e_{k}": form[k] for k in BC_FIELDS})
+        state.hs_editor_group = hs_group if form is not None else None
         panel.scene.highlight_group(panel.mesh.group_names.index(hs_group) if form is not None else None)
         panel.update_view()
         refresh_preview(panel)
@@ -65,8 +66,8 @@ def register(panel) -> None:
     @state.change(*(f"hs_e_{k}" for k in BC_FIELDS))
     def on_bc_edit(**_):
         """Keep the edited condition of the selected group and check the case."""
-        group = state.hs_group
-        if group in panel.bcs:
+        group = state.hs_editor_group
+        if group in panel.bcs and group == state.hs_group:
             panel.bcs[group] = {k: state[f"hs_e_{k}"] for k in BC_FIELDS}
         state.hs_bc_unit = KIND_UNITS.get(state.hs_e_kind, "")
         validate(panel)

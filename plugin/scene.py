@@ -219,5 +219,6 @@ class Scene:
         actor = self._actors.pop(name, None)
         if actor is not None:
             self.plotter.remove_actor(actor, reset_camera=False, render=False)
-        if name == "result" and "result" in self.plotter.scalar_bars:
-            self.plotter.remove_scalar_bar("T", render=False)
+        if name == "result":
+            for title in list(self.plotter.scalar_bars.keys()):
+                self.plotter.remove_scalar_bar(title, render=False)

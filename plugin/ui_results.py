@@ -51,7 +51,7 @@ def player(panel) -> None:
                                variant="outlined", color="#2f5d50", id="hs-range-mode"):
                 v3.VBtn("range: whole run", value="fixed", size="small")
                 v3.VBtn("range: this frame", value="auto", size="small")
-            html.Span("{{ hs_range[0] }} … {{ hs_range[1] }}", classes="text-caption")
+            html.Span("{{ hs_range[0] }} … {{ hs_range[1] }}", classes="text-caption", id="hs-range")
             v3.VSwitch(v_model=("hs_clip",), label="clip", density="compact", hide_details=True, color="#2f5d50",
                        id="hs-clip")
             v3.VSelect(v_if="hs_clip", v_model=("hs_clip_axis",), items=("['x', 'y', 'z']",), density="compact",

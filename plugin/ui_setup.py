@@ -97,9 +97,9 @@ def surfaces_section(panel) -> None:
 def condition_editor(panel) -> None:
     """Kind and schedule of the selected group, with a live preview."""
     g = "'boundary.' + hs_group + '."
-    with v3.VCard(v_if="hs_group", variant="tonal", color="#2f5d50", classes="pa-3 mt-2 hs-editor",
-                  id="hs-editor"):
-        html.Div("Condition on {{ hs_group }}", classes="text-subtitle-2 mb-2 hs-ink")
+    with v3.VCard(v_if="hs_group && hs_editor_group == hs_group", variant="tonal", color="#2f5d50",
+                  classes="pa-3 mt-2 hs-editor", id="hs-editor"):
+        html.Div("Condition on {{ hs_editor_group }}", classes="text-subtitle-2 mb-2 hs-ink")
         v3.VSelect(v_model=("hs_e_kind",), items=("hs_kinds",), label="Kind", density="compact",
                    variant="outlined", hide_details=True, classes="mb-2", id="hs-kind", bg_color="white")
         with html.Div(v_if="hs_e_kind != 'insulated'"):

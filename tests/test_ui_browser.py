@@ -196,3 +196,49 @@ def test_mesh_without_tetrahedra_gives_a_clear_message(page, server, shots):
     assert "no tetrahedra" in text and "flat.stl" in text
     assert "Traceback" not in page.content()
     page.screenshot(path=str(shots / "6-no-tetrahedra.png"))
+
+
+def test_what_if_runs_are_labelled_compared_and_differenced(page, server, shots):
+    page.click("#hs-view-mode button:has-text('set-up')")
+    select_group(page, "base")
+    choose(page, "#hs-kind", "Temperature (Dirichlet)")
+    page.locator("#hs-shape button", has_text="ramp").click()
+    settle(page)
+    for key, value in (("start", 22), ("end", 150), ("at", 0), ("over", 240)):
+        fill(page, f"#hs-ramp-{key}", value)
+    page.wait_for_selector("#hs-run:not([disabled])", timeout=15_000)
+    page.click("#hs-run")
+    wait_for(lambda: page.locator(".hs-run-row").count() >= 2, 90, what="a second run")
+    label = page.locator(".hs-run-row").nth(1).inner_text()
+    assert "base ramp over 120 s -> 240 s" in label
+    # Overlay both runs' curves: the probe table lists each probe once per run.
+    page.locator(".hs-run-row").nth(0).locator("input[type=checkbox]").check()
+    wait_for(lambda: page.locator("#hs-probe-values .hs-probe-row", has_text="T1").count() == 2, 15,
+             what="curves of both runs")
+    choose(page, "#hs-diff", "minus run 1")
+    page.click("#hs-next")
+    settle(page, 1000)
+    page.screenshot(path=str(shots / "7-difference.png"))
+    low, high = (float(v) for v in page.inner_text("#hs-range").split(" … "))
+    assert low == pytest.approx(-high) and high > 1.0  # a symmetric range around zero difference
+    page.locator("#hs-clip").check()
+    settle(page, 1500)
+    page.screenshot(path=str(shots / "8-clipped.png"))
+    assert "Traceback" not in server.log()
+
+
+def test_cancel_keeps_the_steps_done(page, server):
+    page.click("#hs-view-mode button:has-text('set-up')")
+    open_section(page, "Start and time")
+    fill(page, "#hs-end", 200000)
+    fill(page, "#hs-step", 2)
+    page.wait_for_selector("#hs-run:not([disabled])", timeout=15_000)
+    page.click("#hs-run")
+    page.wait_for_selector("#hs-cancel")
+    wait_for(lambda: "step" in page.inner_text("#hs-progress-text") and "left" in page.inner_text("#hs-progress-text"),
+             30, what="progress with an estimate of the time left")
+    page.click("#hs-cancel")
+    wait_for(lambda: "cancelled" in page.inner_text("#hs-progress-text"), 30, what="the run to stop")
+    steps = int(page.inner_text("#hs-progress-text").split(": ")[1].split(" steps")[0])
+    assert steps > 0
+    assert "cancelled" in page.locator(".hs-run-row").last.inner_text()
