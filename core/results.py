@@ -172,3 +172,60 @@ class Recorder:
         hist = self.probe_history
         return {name: (None if thr is None else first_crossing(self.times, hist[:, i], thr))
                 for i, (name, thr) in enumerate(zip(self.probes.names, self.thresholds))}
+
+
+def _schedule_range(schedule, end: float):
+    """(min, max) of a piecewise-linear schedule over [0, end]."""
+    bp = np.asarray(schedule.breakpoints(), dtype=float)
+    t = np.concatenate([[0.0, end], bp[(bp > 0) & (bp < end)]])
+    v = np.array([float(schedule(x)) for x in t])
+    return v.min(), v.max()
+
+
+def data_bounds(problem, end: float):
+    """Bounds [degC] the exact temperature cannot leave, or None.
+
+    Without heat flux or sources, the temperature of a body stays between the
+    lowest and highest of its initial, prescribed and ambient temperatures
+    (maximum principle of the heat equation; common practice, no source).
+    A discrete solution outside these bounds shows a mesh or step that does
+    not keep the principle (strongly anisotropic conductivity, obtuse
+    elements, consistent mass with very small steps).
+
+    Returns
+    -------
+    (lo, hi) or None when a heat flux or a source makes the bounds open.
+    """
+    from .operators import as_schedule, initial_field
+
+    if any(m.source is not None for m in problem.materials.values()):
+        return None
+    init = initial_field(problem)
+    lo, hi = float(init.min()), float(init.max())
+    for bc in problem.boundaries.values():
+        if bc.kind == "heat_flux":
+            return None
+        sched = bc.value if bc.kind == "temperature" else bc.ambient if bc.kind == "convection" else None
+        if sched is not None:
+            a, b = _schedule_range(as_schedule(sched), end)
+            lo, hi = min(lo, a), max(hi, b)
+    return lo, hi
+
+
+def bound_warnings(problem, end: float, t_min: float, t_max: float) -> list:
+    """Warnings when the computed range [t_min, t_max] leaves :func:`data_bounds`."""
+    bounds = data_bounds(problem, end)
+    if bounds is None:
+        return []
+    lo, hi = bounds
+    tol = 1e-6 * max(hi - lo, 1.0)
+    advice = ("the mesh or step does not keep the maximum principle here (strong anisotropy, flat or obtuse "
+              "elements, or consistent mass with small steps): refine the mesh there or use lumped mass")
+    out = []
+    if t_max > hi + tol:
+        out.append(f"computed temperature reaches {t_max:.4g} degC, above the highest initial, prescribed "
+                   f"or ambient temperature {hi:.4g} degC: {advice}")
+    if t_min < lo - tol:
+        out.append(f"computed temperature falls to {t_min:.4g} degC, below the lowest initial, prescribed "
+                   f"or ambient temperature {lo:.4g} degC: {advice}")
+    return out

@@ -12,7 +12,7 @@ from .case import Case, load_case
 from .errors import CaseError
 from .output import ResultFiles
 from .probes import ProbeSet
-from .results import Recorder
+from .results import Recorder, bound_warnings
 from .stepping import ThetaMethod
 
 #: Exit code of a run stopped with Ctrl-C (128 + SIGINT, common practice).
@@ -22,6 +22,12 @@ EXIT_CANCELLED = 130
 def _probe_set(case: Case) -> ProbeSet:
     points = np.array([p.point for p in case.probes]).reshape(-1, 3)
     return ProbeSet(case.mesh, points, [p.name for p in case.probes], unit=case.unit)
+
+
+def _bound_warnings(case: Case, rec: Recorder) -> list:
+    if rec.minimum is None:
+        return []
+    return bound_warnings(case.problem, case.time.end, rec.minimum.value, rec.maximum.value)
 
 
 def _summary(case: Case, stepper, rec: Recorder, files: ResultFiles, status: str, clock: dict) -> dict:
@@ -44,6 +50,7 @@ def _summary(case: Case, stepper, rec: Recorder, files: ResultFiles, status: str
         },
         "probes": {p.name: {"threshold": p.threshold, "crossing_time": rec.crossings().get(p.name)}
                    for p in case.probes},
+        "warnings": list(case.mesh.warnings) + _bound_warnings(case, rec),
         "energy": stepper.energy(),
         "solver": stepper.report(),
     }
@@ -202,6 +209,7 @@ def _report(summary: dict, out_dir: Path) -> list:
             when = "not reached" if p["crossing_time"] is None else f"reached at t = {p['crossing_time']:.4g} s"
             lines.append(f"probe {name}: {p['threshold']:g} degC {when}")
     lines.append(f"energy balance: relative imbalance {summary['energy']['relative_imbalance']:.2e}")
+    lines.extend(f"warning: {w}" for w in summary.get("warnings", []))
     lines.append(summary["note"])
     return lines
 
