@@ -10,7 +10,7 @@ from heatsoak.core.inspect import summarize
 from heatsoak.core.meshread import UNITS, read_mesh
 from heatsoak.core.schedule import read_table_csv
 
-from . import files, h_setup
+from . import files, h_results, h_setup
 from .forms import bc_form_from_case
 
 
@@ -106,8 +106,12 @@ def open_mesh(panel, path: Path, keep_forms: bool = False) -> bool:
     panel.case_dir = Path(path).parent
     state.hs_mesh_name = Path(path).name
     state.hs_facts = summarize(mesh)
+    state.hs_unit_m = UNITS[state.hs_unit]
     panel.scene.show_mesh(mesh)
     h_setup.mesh_changed(panel, keep_forms=keep_forms)
+    state.hs_playing = False
+    state.hs_view = "setup"
+    h_results.refresh_rows(panel)
     panel.reset_camera()
     panel.update_view()
     return True

@@ -86,7 +86,7 @@ def register(panel) -> None:
 def runs_changed(panel, show=None) -> None:
     """Refresh the run list; show run ``show`` (or keep the one shown if it still exists)."""
     state = panel.state
-    state.hs_runs = panel.runs.rows()
+    refresh_rows(panel)
     ids = [r["id"] for r in state.hs_runs]
     state.hs_compare = [i for i in state.hs_compare if i in ids]
     if show is not None:
@@ -105,11 +105,21 @@ def runs_changed(panel, show=None) -> None:
     refresh_curves(panel)
 
 
+def refresh_rows(panel) -> None:
+    """The run list, each row saying whether the run is on the mesh now open."""
+    panel.state.hs_runs = [row | {"here": panel.runs.get(row["id"]).mesh is panel.mesh}
+                           for row in panel.runs.rows()]
+
+
 def build_field(panel) -> None:
     """Extract the shown surface (or clipped body) once and draw the current frame."""
     state, run = panel.state, panel.runs.get(panel.state.hs_shown_run)
     if run is None or run.series is None or len(run.series) == 0 or state.hs_view != "results":
         state.hs_n_frames = 0
+        return
+    if run.mesh is not panel.mesh:
+        state.hs_n_frames = 0
+        state.hs_frame_time = f"Run {run.id} was on another mesh (or unit): open that mesh to see it in 3D"
         return
     clip = None
     if state.hs_clip:
@@ -117,6 +127,7 @@ def build_field(panel) -> None:
         origin = lo + (hi - lo) * float(state.hs_clip_pos) / 100.0
         clip = (AXES[state.hs_clip_axis], tuple(origin))
     diff = panel.runs.get(state.hs_diff_run) if state.hs_diff_run != run.id else None
+    diff = diff if diff is not None and diff.mesh is run.mesh else None
     title = f"{UNIT_LABEL.split(' [')[0]} difference [K]" if diff else UNIT_LABEL
     panel.scene.show_field(clip=clip, cmap=DIFFERENCE_CMAP if diff else TEMPERATURE_CMAP, title=title)
     state.hs_n_frames = len(run.series)
@@ -152,9 +163,11 @@ def frame_values(run, diff, k: int) -> np.ndarray:
 def draw_frame(panel, k: int) -> None:
     """Overwrite the shown scalars with frame ``k`` and push the picture."""
     state, run = panel.state, panel.runs.get(panel.state.hs_shown_run)
-    if run is None or run.series is None or not 0 <= k < len(run.series) or state.hs_view != "results":
+    if run is None or run.series is None or not 0 <= k < len(run.series) or state.hs_view != "results" \
+            or run.mesh is not panel.mesh:
         return
     diff = panel.runs.get(state.hs_diff_run) if state.hs_diff_run != run.id else None
+    diff = diff if diff is not None and diff.mesh is run.mesh else None
     values = frame_values(run, diff, k)
     panel.scene.set_values(values)
     panel._frame_range = [float(values.min()), float(values.max())]

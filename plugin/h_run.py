@@ -118,7 +118,7 @@ def finish(panel, job) -> None:
         state.hs_run_error = job.error or "the run stopped without results"
         state.hs_progress_text = "failed"
         return
-    run = panel.runs.add(job.data, job.out_dir, job.summary)
+    run = panel.runs.add(job.data, job.out_dir, job.summary, mesh=job.case.mesh)
     state.hs_progress = 100.0 if run.status == "complete" else state.hs_progress
     state.hs_progress_text = (f"{run.status}: {run.summary.get('steps', 0)} steps to t = "
                               f"{run.summary.get('end_time', 0):g} s in {run.summary.get('wall_time_s', 0):.1f} s")

@@ -87,8 +87,9 @@ def curves_svg(series, ylabel: str = "Temperature [degC]", thresholds=(), marks=
         ax.annotate(label, (t, value), textcoords="offset points", xytext=(4, -10), fontsize=7, color=INK)
     ax.set_xlabel("time [s]", fontsize=8, color=INK)
     ax.set_ylabel(ylabel, fontsize=8, color=INK)
-    if series:
-        ax.legend(fontsize=7, frameon=False, loc="best")
+    shown = [s for s in series if not str(s[0]).startswith("_")]
+    if shown:
+        ax.legend(fontsize=6.5 if len(shown) > 6 else 7, frameon=False, loc="best", ncol=2 if len(shown) > 6 else 1)
     return _svg(fig)
 
 

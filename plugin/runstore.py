@@ -60,6 +60,7 @@ class Run:
     probes: dict = field(default_factory=dict)
     regions: dict = field(default_factory=dict)
     series: FieldSeries | None = None
+    mesh: object = None
 
     @property
     def status(self) -> str:
@@ -91,10 +92,10 @@ class RunStore:
     def next_id(self) -> int:
         return self._next
 
-    def add(self, case: dict, out_dir, summary: dict) -> Run:
-        """Keep a finished run; its label compares its case with the last run's."""
+    def add(self, case: dict, out_dir, summary: dict, mesh=None) -> Run:
+        """Keep a finished run of ``mesh``; its label compares its case with the last run's."""
         previous = self.runs[-1].case if self.runs else None
-        run = Run(self._next, run_label(previous, case), case, Path(out_dir), summary).load()
+        run = Run(self._next, run_label(previous, case), case, Path(out_dir), summary, mesh=mesh).load()
         self._next += 1
         self.runs.append(run)
         return run

@@ -59,7 +59,7 @@ def player(panel) -> None:
             v3.VSlider(v_if="hs_clip", v_model=("hs_clip_pos",), min=0, max=100, step=1, hide_details=True,
                        density="compact", style="max-width: 160px", color="#2f5d50", end="hs_clip_pos = $event")
             v3.VSelect(v_model=("hs_diff_run",), items=("[{title: 'temperature', value: null}].concat("
-                                                          "hs_runs.filter(r => r.id != hs_shown_run).map(r => "
+                                                          "hs_runs.filter(r => r.id != hs_shown_run && r.here).map(r => "
                                                           "({title: `minus run ${r.id}`, value: r.id})))",),
                        label="show", density="compact", variant="outlined", hide_details=True,
                        style="max-width: 170px", id="hs-diff")

@@ -30,7 +30,8 @@ def build(panel) -> None:
             v3.VListItemTitle("Run {{ r.id }} · {{ r.status }}", classes="text-body-2")
             html.Div("{{ r.label }}", classes="text-caption hs-run-label", style="white-space: normal")
             with v3.Template(v_slot_append=True):
-                v3.VBtn(icon="mdi-eye-outline", size="x-small", variant="text", click="hs_shown_run = r.id; hs_view = 'results'")
+                v3.VBtn(icon="mdi-eye-outline", size="x-small", variant="text", disabled=("!r.here",),
+                        click="hs_shown_run = r.id; hs_view = 'results'")
                 v3.VBtn(icon="mdi-delete-outline", size="x-small", variant="text",
                         click=(ctrl.hs_discard, "[r.id]"))
     html.Div("No runs yet.", v_if="!hs_runs.length", classes="text-caption px-3 hs-note")

@@ -242,3 +242,48 @@ def test_cancel_keeps_the_steps_done(page, server):
     steps = int(page.inner_text("#hs-progress-text").split(": ")[1].split(" steps")[0])
     assert steps > 0
     assert "cancelled" in page.locator(".hs-run-row").last.inner_text()
+
+
+def test_picture_and_animation_export(page, tmp_path):
+    import imageio.v3 as iio
+
+    with page.expect_download() as dl:
+        page.click("#hs-export-png")
+    dl.value.save_as(tmp_path / "view.png")
+    assert iio.imread(tmp_path / "view.png").shape[0] > 100
+    with page.expect_download(timeout=60_000) as dl:
+        page.click("#hs-export-movie")
+    dl.value.save_as(tmp_path / "animation.gif")
+    frames = iio.imread(tmp_path / "animation.gif", index=None)
+    assert frames.shape[0] > 2 and np.abs(frames[-1].astype(float) - frames[0]).mean() > 1.0
+
+
+def test_clicking_the_view_selects_a_group_and_places_a_probe(page, shots):
+    page.click("#hs-view-mode button:has-text('set-up')")
+    select_group(page, "bore")
+    page.locator("#hs-pick-mode button", has_text="select surface").click()
+    view = page.locator(".hs-view")
+    box = view.bounding_box()
+    # On the top face, beside the bore (the set-up camera looks down on the top at an angle).
+    spot = {"x": box["width"] * 0.62, "y": box["height"] * 0.42}
+    view.click(position=spot)
+    page.wait_for_selector("#hs-editor >> text=Condition on top", timeout=15_000)
+    open_section(page, "Probes")
+    before = page.locator("#hs-probe-list tbody tr").count()
+    page.locator("#hs-pick-mode button", has_text="place probe").click()
+    settle(page)
+    view.click(position=spot)
+    wait_for(lambda: page.locator("#hs-probe-list tbody tr").count() == before + 1, 15, what="a probe from a click")
+    page.screenshot(path=str(shots / "9-picked.png"))
+
+
+def test_untagged_mesh_is_split_by_the_feature_angle(page, shots):
+    open_section(page, "Mesh")
+    page.locator(".hs-file", has_text="lblock.vtu").click()
+    page.wait_for_selector("#hs-facts >> text=lblock.vtu", timeout=30_000)
+    settle(page, 1000)
+    sharp = page.locator(".hs-group").count()
+    fill(page, "#hs-angle", 100)
+    wait_for(lambda: page.locator(".hs-group").count() < sharp, 30, what="fewer groups at a wider angle")
+    assert sharp > 1
+    page.screenshot(path=str(shots / "10-untagged.png"))
