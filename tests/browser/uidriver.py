@@ -98,6 +98,7 @@ def fill(page, selector: str, value) -> None:
     field = page.locator(selector)
     field.fill(str(value))
     field.dispatch_event("change")
+    settle(page, 250)  # the client sends state changes in batches; let them reach the server
 
 
 def choose(page, field_selector: str, option: str) -> None:
@@ -107,7 +108,7 @@ def choose(page, field_selector: str, option: str) -> None:
     settle(page)
 
 
-def settle(page, ms: int = 600) -> None:
+def settle(page, ms: int = 500) -> None:
     """Give the server a moment to answer a change (it may push values back)."""
     page.wait_for_timeout(ms)
 
