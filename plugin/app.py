@@ -81,7 +81,8 @@ def cmd_ui(args) -> int:
     from trame.app import get_server
 
     server = get_server("heatsoak", client_type="vue3")
-    build_app(server, input_path=input_path, data_dir=data_dir)
+    # Server-side rendering is the default; HEATSOAK_UI_VIEW=client renders with vtk.js in the browser.
+    build_app(server, input_path=input_path, data_dir=data_dir, view_mode=os.environ.get("HEATSOAK_UI_VIEW", "server"))
     print(access.notice(args.port), flush=True)
     sys.argv = _argv_for_trame(args, access.key)
     server.start(host=access.host, port=args.port, timeout=0, open_browser=not args.server,

@@ -12,6 +12,8 @@ from __future__ import annotations
 import math
 import re
 
+from heatsoak.core.materials import LIBRARY
+
 #: Boundary kinds offered, (value, label, unit of the schedule).
 KINDS = (
     ("insulated", "Insulated (no heat flow)", ""),
@@ -110,7 +112,9 @@ def material_entry(form: dict, region: str) -> dict:
     """``material.<region>`` of the case from a material form."""
     key = f"material.{region}"
     entry = {k: _number(form.get(k), f"{key}.{k}") for k in ("density", "specific_heat", "conductivity")}
-    if form.get("label"):
+    if form.get("preset") in LIBRARY:
+        entry["label"] = LIBRARY[form["preset"]].as_case()["label"]
+    elif form.get("label"):
         entry["label"] = str(form["label"])
     return entry
 

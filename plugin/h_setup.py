@@ -132,9 +132,15 @@ def register(panel) -> None:
     @ctrl.set("hs_view_click")
     def on_view_click(event):
         """A click in 3D: select the group under the mouse, or place a probe there."""
-        if panel.mesh is None or not event or "position" not in event:
+        if panel.mesh is None or not event:
             return
-        hit = panel.scene.pick(event["position"]["x"], event["position"]["y"])
+        if "worldPosition" in event:  # client-side (vtk.js) views pick in the browser
+            point = np.asarray(event["worldPosition"][:3], dtype=float)
+            hit = point, panel.scene.nearest_group(point)
+        elif "position" in event:
+            hit = panel.scene.pick(event["position"]["x"], event["position"]["y"])
+        else:
+            hit = None
         if hit is None:
             return
         point, group = hit

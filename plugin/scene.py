@@ -142,10 +142,10 @@ class Scene:
         if "group" in data.GetCellData().keys() if hasattr(data.GetCellData(), "keys") else False:
             group = int(data.GetCellData().GetArray("group").GetValue(cell))
         else:
-            group = self._nearest_group(point)
+            group = self.nearest_group(point)
         return point, group
 
-    def _nearest_group(self, point) -> int:
+    def nearest_group(self, point) -> int:
         centres = self.surface.cell_centers().points
         return int(self.mesh.face_group[np.argmin(((centres - point) ** 2).sum(axis=1))])
 

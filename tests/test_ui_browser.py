@@ -288,3 +288,12 @@ def test_untagged_mesh_is_split_by_the_feature_angle(page, shots):
     wait_for(lambda: page.locator(".hs-group").count() < sharp, 30, what="fewer groups at a wider angle")
     assert sharp > 1
     page.screenshot(path=str(shots / "10-untagged.png"))
+
+
+def test_an_uploaded_mesh_is_opened(page, data_dir, tmp_path):
+    upload = tmp_path / "uploaded part.vtu"
+    shutil.copy(data_dir / "lblock.vtu", upload)
+    open_section(page, "Mesh")
+    page.set_input_files("#hs-upload", str(upload))
+    page.wait_for_selector("#hs-facts >> text=uploaded_part.vtu", timeout=30_000)
+    assert page.locator(".hs-group").count() >= 1

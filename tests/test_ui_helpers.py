@@ -156,3 +156,11 @@ def test_library_entries_name_their_source():
     assert all("Incropera" in m.source for m in LIBRARY.values())
     with pytest.raises(InputError, match="not in the library"):
         get_material("unobtainium")
+
+
+def test_library_material_is_written_with_its_source():
+    form = {"preset": "copper", "density": 8933.0, "specific_heat": 385.0, "conductivity": 401.0}
+    entry = forms.material_entry(form, "core")
+    assert entry["conductivity"] == 401.0 and "Incropera" in entry["label"]
+    custom = forms.material_entry(form | {"preset": "custom", "conductivity": 380.0}, "core")
+    assert "label" not in custom
