@@ -11,7 +11,6 @@ import zipfile
 from pathlib import Path
 
 import imageio.v3 as iio
-
 from heatsoak.core.case import case_to_toml
 
 from . import h_results, h_setup
@@ -101,7 +100,7 @@ def animation_bytes(panel, run, fmt: str = "gif") -> bytes:
     fmt = "mp4" if fmt == "mp4" else "gif"
     state = panel.state
     n = len(run.series)
-    picks = sorted({int(round(x)) for x in _even(n, MAX_MOVIE_FRAMES)})
+    picks = sorted({round(x) for x in _even(n, MAX_MOVIE_FRAMES)})
     keep = state.hs_frame
     images = []
     for k in picks:

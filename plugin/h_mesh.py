@@ -2,9 +2,9 @@
 
 from __future__ import annotations
 
-import tomllib
 from pathlib import Path
 
+import tomllib
 from heatsoak.core.errors import InputError
 from heatsoak.core.inspect import summarize
 from heatsoak.core.meshread import UNITS, read_mesh
@@ -51,17 +51,19 @@ def register(panel) -> None:
         state.hs_dir = files.parent_of(state.hs_dir)
         refresh_files()
 
-    @ctrl.set("hs_reload_mesh")
-    def reload_mesh():
-        """Read the mesh again with the unit and feature angle now set."""
-        if panel.mesh_path is not None:
-            open_mesh(panel, panel.mesh_path, keep_forms=True)
+    register_choices(panel)
+    refresh_files()
+
+
+def register_choices(panel) -> None:
+    """Unit, feature angle and upload."""
+    state, ctrl = panel.state, panel.ctrl
 
     @ctrl.set("hs_set_unit")
     def set_unit(unit):
         """The user says which length unit the file is in: read it again."""
         state.hs_unit = unit
-        reload_mesh()
+        reload_mesh(panel)
 
     @ctrl.set("hs_set_angle")
     def set_angle(angle):
@@ -71,7 +73,7 @@ def register(panel) -> None:
         except (TypeError, ValueError):
             state.hs_mesh_error = f"feature angle {angle!r} is not a number of degrees"
             return
-        reload_mesh()
+        reload_mesh(panel)
 
     @state.change("hs_upload")
     def on_upload(hs_upload, **_):
@@ -90,7 +92,11 @@ def register(panel) -> None:
             return
         (open_case if path.suffix == ".toml" else open_mesh)(panel, path)
 
-    refresh_files()
+
+def reload_mesh(panel) -> None:
+    """Read the mesh again with the unit and feature angle now set."""
+    if panel.mesh_path is not None:
+        open_mesh(panel, panel.mesh_path, keep_forms=True)
 
 
 def open_mesh(panel, path: Path, keep_forms: bool = False) -> bool:

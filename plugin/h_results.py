@@ -20,6 +20,7 @@ AXES = {"x": (1.0, 0.0, 0.0), "y": (0.0, 1.0, 0.0), "z": (0.0, 0.0, 1.0)}
 def register(panel) -> None:
     """Defaults and handlers of the results area."""
     state, ctrl = panel.state, panel.ctrl
+    register_player(panel)
     state.update({
         "hs_runs": [], "hs_shown_run": None, "hs_diff_run": None, "hs_compare": [], "hs_frame": 0,
         "hs_n_frames": 0, "hs_playing": False, "hs_loop": True, "hs_speed": 5, "hs_speeds": list(SPEEDS),
@@ -56,6 +57,16 @@ def register(panel) -> None:
         else:
             build_field(panel)
 
+    @ctrl.set("hs_discard")
+    def discard(run_id):
+        panel.runs.discard(run_id)
+        runs_changed(panel)
+
+
+def register_player(panel) -> None:
+    """Play, pause and step."""
+    state, ctrl = panel.state, panel.ctrl
+
     @panel.server.trigger("hs_play")
     @ctrl.set("hs_play")
     def play():
@@ -76,11 +87,6 @@ def register(panel) -> None:
         """One frame forward (+1) or back (-1)."""
         state.hs_playing = False
         state.hs_frame = int(min(max(state.hs_frame + int(delta), 0), max(state.hs_n_frames - 1, 0)))
-
-    @ctrl.set("hs_discard")
-    def discard(run_id):
-        panel.runs.discard(run_id)
-        runs_changed(panel)
 
 
 def runs_changed(panel, show=None) -> None:

@@ -35,7 +35,7 @@ class RunJob:
                                     should_stop=lambda: self.stop)
         except HeatsoakError as exc:
             self.error = str(exc)
-        except Exception as exc:  # a bug must not kill the UI; say what happened
+        except Exception as exc:  # noqa: BLE001 - a bug must not kill the UI; say what happened
             self.error = f"the run failed: {type(exc).__name__}: {exc}"
 
     def _on_progress(self, p):

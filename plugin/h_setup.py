@@ -8,7 +8,6 @@ forms of every group and region live on the panel (``panel.bcs``,
 from __future__ import annotations
 
 import numpy as np
-
 from heatsoak.core.case import check_case_data
 from heatsoak.core.errors import InputError
 from heatsoak.core.materials import LIBRARY, SOURCE_NOTE
@@ -35,10 +34,11 @@ def material_form(entry: dict) -> dict:
 
 def register(panel) -> None:
     """Defaults and handlers of the set-up steps."""
-    state, ctrl = panel.state, panel.ctrl
+    state = panel.state
     panel.bcs, panel.mats = {}, {}
     state.update({
-        "hs_groups": [], "hs_group": None, "hs_editor_group": None, "hs_regions": [], "hs_region": None, "hs_pick_mode": "group",
+        "hs_groups": [], "hs_group": None, "hs_editor_group": None, "hs_regions": [], "hs_region": None,
+        "hs_pick_mode": "group",
         "hs_kinds": [{"value": v, "title": t} for v, t, _ in KINDS], "hs_bc_unit": "",
         "hs_library": [{"value": k, "title": m.name} for k, m in LIBRARY.items()]
         + [{"value": "custom", "title": "Custom values"}],
@@ -49,6 +49,14 @@ def register(panel) -> None:
     })
     state.update({f"hs_e_{k}": v for k, v in default_bc().items()})
     state.update({f"hs_m_{k}": None for k in MAT_FIELDS})
+    register_conditions(panel)
+    register_materials_and_time(panel)
+    register_probes(panel)
+
+
+def register_conditions(panel) -> None:
+    """Group selection and the condition editor."""
+    state = panel.state
 
     @state.change("hs_group")
     def on_group(hs_group, **_):
@@ -72,6 +80,23 @@ def register(panel) -> None:
         state.hs_bc_unit = KIND_UNITS.get(state.hs_e_kind, "")
         validate(panel)
         refresh_preview(panel)
+
+    @state.change("hs_table_upload")
+    def on_table_upload(hs_table_upload, **_):
+        """Put an uploaded CSV table into the table field (checked like pasted text)."""
+        if not hs_table_upload:
+            return
+        upload = hs_table_upload[0] if isinstance(hs_table_upload, list) else hs_table_upload
+        if int(upload.get("size", 0)) > 1_000_000:
+            state.hs_err = {**state.hs_err, f"boundary.{state.hs_group}.table": ["the CSV file is over 1 MB"]}
+            return
+        state.hs_e_table = bytes(upload["content"]).decode("utf-8-sig", errors="replace")
+        state.hs_table_upload = None
+
+
+def register_materials_and_time(panel) -> None:
+    """Material editor and time settings."""
+    state = panel.state
 
     @state.change("hs_region")
     def on_region(hs_region, **_):
@@ -103,17 +128,10 @@ def register(panel) -> None:
         validate(panel)
         refresh_preview(panel)
 
-    @state.change("hs_table_upload")
-    def on_table_upload(hs_table_upload, **_):
-        """Put an uploaded CSV table into the table field (checked like pasted text)."""
-        if not hs_table_upload:
-            return
-        upload = hs_table_upload[0] if isinstance(hs_table_upload, list) else hs_table_upload
-        if int(upload.get("size", 0)) > 1_000_000:
-            state.hs_err = {**state.hs_err, f"boundary.{state.hs_group}.table": ["the CSV file is over 1 MB"]}
-            return
-        state.hs_e_table = bytes(upload["content"]).decode("utf-8-sig", errors="replace")
-        state.hs_table_upload = None
+
+def register_probes(panel) -> None:
+    """Probes typed or clicked, and clicks in the 3D view."""
+    state, ctrl = panel.state, panel.ctrl
 
     @ctrl.set("hs_add_probe")
     def add_probe():
@@ -150,9 +168,6 @@ def register(panel) -> None:
             add_probe()
         else:
             state.hs_group = panel.mesh.group_names[group]
-
-
-
 
 
 def _differs(a, b) -> bool:

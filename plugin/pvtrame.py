@@ -11,15 +11,15 @@ import os
 # Off-screen EGL rendering: skips a noisy X11 attempt on headless machines.
 os.environ.setdefault("VTK_DEFAULT_OPENGL_WINDOW", "vtkEGLRenderWindow")
 
-import pyvista as pv  # noqa: E402
-from trame_pyvista.widgets import PyVistaLocalView, PyVistaRemoteView  # noqa: E402
+import pyvista as pv
+from trame_pyvista.widgets import PyVistaLocalView, PyVistaRemoteView
 
 pv.OFF_SCREEN = True
 
-__all__ = ["pv", "new_plotter", "view_for"]
+__all__ = ["new_plotter", "pv", "view_for"]
 
 
-def new_plotter(background="#f4f5f2") -> "pv.Plotter":
+def new_plotter(background="#f4f5f2") -> pv.Plotter:
     """An off-screen plotter suitable for a trame view."""
     plotter = pv.Plotter(off_screen=True)
     plotter.set_background(background)

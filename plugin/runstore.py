@@ -9,7 +9,6 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
-
 from heatsoak.core.fieldfile import FieldSeries
 
 from .rundiff import run_label
@@ -66,7 +65,7 @@ class Run:
     def status(self) -> str:
         return self.summary.get("status", "failed")
 
-    def load(self) -> "Run":
+    def load(self) -> Run:
         """Read the curves and open the field of the results folder."""
         if (self.out_dir / "probes.csv").is_file():
             self.times, self.probes = read_probes_csv(self.out_dir / "probes.csv")

@@ -52,7 +52,7 @@ def boundary_polydata(mesh) -> tuple:
     return poly, nodes
 
 
-def volume_grid(mesh) -> "pv.UnstructuredGrid":
+def volume_grid(mesh) -> pv.UnstructuredGrid:
     """Linear tetrahedra of the mesh (vertices only), for clipping and slicing."""
     tets = mesh.cells[:, :4]
     cells = np.hstack([np.full((len(tets), 1), 4), tets]).ravel()
@@ -139,8 +139,9 @@ class Scene:
         point = np.array(self._picker.GetPickPosition())
         if data is None or cell < 0:
             return None
-        if "group" in data.GetCellData().keys() if hasattr(data.GetCellData(), "keys") else False:
-            group = int(data.GetCellData().GetArray("group").GetValue(cell))
+        groups = data.GetCellData().GetArray("group")
+        if groups is not None:
+            group = int(groups.GetValue(cell))
         else:
             group = self.nearest_group(point)
         return point, group

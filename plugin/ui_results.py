@@ -5,6 +5,10 @@ from __future__ import annotations
 from trame.widgets import html
 from trame.widgets import vuetify3 as v3
 
+#: Choices of what the 3D view shows: the temperature, or its difference to another run on the same mesh.
+DIFF_ITEMS = ("[{title: 'temperature', value: null}].concat(hs_runs.filter(r => r.id != hs_shown_run && r.here)"
+              ".map(r => ({title: `minus run ${r.id}`, value: r.id})))")
+
 
 def run_bar(panel) -> None:
     """Run and cancel, progress, and why running is not possible yet."""
@@ -58,9 +62,7 @@ def player(panel) -> None:
                        variant="outlined", hide_details=True, style="max-width: 80px", label="normal")
             v3.VSlider(v_if="hs_clip", v_model=("hs_clip_pos",), min=0, max=100, step=1, hide_details=True,
                        density="compact", style="max-width: 160px", color="#2f5d50", end="hs_clip_pos = $event")
-            v3.VSelect(v_model=("hs_diff_run",), items=("[{title: 'temperature', value: null}].concat("
-                                                          "hs_runs.filter(r => r.id != hs_shown_run && r.here).map(r => "
-                                                          "({title: `minus run ${r.id}`, value: r.id})))",),
+            v3.VSelect(v_model=("hs_diff_run",), items=(DIFF_ITEMS,),
                        label="show", density="compact", variant="outlined", hide_details=True,
                        style="max-width: 170px", id="hs-diff")
 
@@ -72,10 +74,9 @@ def curves(panel) -> None:
             html.Div("Probes", classes="text-subtitle-2")
             html.Div(v_html=("hs_probe_svg",), classes="hs-plot", id="hs-probe-plot")
             with v3.VTable(density="compact", v_if="hs_probe_table.length", id="hs-probe-values"):
-                with html.Thead():
-                    with html.Tr():
-                        for h in ("Run", "Probe", "Last [°C]", "Max [°C]", "Threshold", "Crossed at"):
-                            html.Th(h, classes="text-caption")
+                with html.Thead(), html.Tr():
+                    for h in ("Run", "Probe", "Last [°C]", "Max [°C]", "Threshold", "Crossed at"):
+                        html.Th(h, classes="text-caption")
                 with html.Tbody():
                     with html.Tr(v_for="row in hs_probe_table", key="row.run + row.probe", classes="hs-probe-row"):
                         html.Td("{{ row.run }}", classes="text-caption")

@@ -74,24 +74,23 @@ def _fact(label: str, expr: str) -> None:
 
 
 def surfaces_section(panel) -> None:
-    with section("Surfaces and conditions", "surfaces", "mdi-layers-outline"):
-        with v3.VExpansionPanelText():
-            with html.Div(classes="d-flex align-center mb-1"):
-                html.Span("Click in 3D to", classes="text-caption mr-2")
-                with v3.VBtnToggle(v_model=("hs_pick_mode",), density="compact", mandatory=True, color="#2f5d50",
-                                   variant="outlined", divided=True, id="hs-pick-mode"):
-                    v3.VBtn("select surface", value="group", size="small")
-                    v3.VBtn("place probe", value="probe", size="small")
-            with v3.VList(density="compact", classes="hs-legend", id="hs-legend", max_height=220):
-                with v3.VListItem(v_for="g in hs_groups", key="g.name", click="hs_group = g.name",
-                                  active=("hs_group == g.name",), color="#2f5d50", classes="hs-group"):
-                    with v3.Template(v_slot_prepend=True):
-                        html.Span(classes="hs-swatch", style=("`background:${g.color}`",))
-                    v3.VListItemTitle("{{ g.name }}", classes="text-body-2")
-                    v3.VListItemSubtitle("{{ g.summary }} · {{ (g.area * 1e6).toPrecision(3) }} mm²")
-                    with v3.Template(v_slot_append=True):
-                        v3.VIcon("mdi-alert-circle", v_if="g.bad", color="#b3261e", size="small")
-            condition_editor(panel)
+    with section("Surfaces and conditions", "surfaces", "mdi-layers-outline"), v3.VExpansionPanelText():
+        with html.Div(classes="d-flex align-center mb-1"):
+            html.Span("Click in 3D to", classes="text-caption mr-2")
+            with v3.VBtnToggle(v_model=("hs_pick_mode",), density="compact", mandatory=True, color="#2f5d50",
+                               variant="outlined", divided=True, id="hs-pick-mode"):
+                v3.VBtn("select surface", value="group", size="small")
+                v3.VBtn("place probe", value="probe", size="small")
+        with v3.VList(density="compact", classes="hs-legend", id="hs-legend", max_height=220):
+            with v3.VListItem(v_for="g in hs_groups", key="g.name", click="hs_group = g.name",
+                              active=("hs_group == g.name",), color="#2f5d50", classes="hs-group"):
+                with v3.Template(v_slot_prepend=True):
+                    html.Span(classes="hs-swatch", style=("`background:${g.color}`",))
+                v3.VListItemTitle("{{ g.name }}", classes="text-body-2")
+                v3.VListItemSubtitle("{{ g.summary }} · {{ (g.area * 1e6).toPrecision(3) }} mm²")
+                with v3.Template(v_slot_append=True):
+                    v3.VIcon("mdi-alert-circle", v_if="g.bad", color="#b3261e", size="small")
+        condition_editor(panel)
 
 
 def condition_editor(panel) -> None:
@@ -131,17 +130,16 @@ def condition_editor(panel) -> None:
 
 
 def materials_section(panel) -> None:
-    with section("Materials", "materials", "mdi-cube-scan"):
-        with v3.VExpansionPanelText():
-            v3.VSelect(v_model=("hs_region",), items=("hs_regions",), label="Region", density="compact",
-                       variant="outlined", hide_details=True, classes="mb-2", id="hs-region")
-            v3.VSelect(v_model=("hs_m_preset",), items=("hs_library",), label="Material", density="compact",
-                       variant="outlined", hide_details=True, classes="mb-2", id="hs-preset")
-            r = "'material.' + hs_region + '."
-            number("hs_m_density", "Density", "kg/m³", f"{r}density'", id="hs-density")
-            number("hs_m_specific_heat", "Specific heat", "J/(kg K)", f"{r}specific_heat'", id="hs-cp")
-            number("hs_m_conductivity", "Conductivity", "W/(m K)", f"{r}conductivity'", id="hs-k")
-            note("Library values: {{ hs_library_note }}. Check them against the supplier's data.")
+    with section("Materials", "materials", "mdi-cube-scan"), v3.VExpansionPanelText():
+        v3.VSelect(v_model=("hs_region",), items=("hs_regions",), label="Region", density="compact",
+                   variant="outlined", hide_details=True, classes="mb-2", id="hs-region")
+        v3.VSelect(v_model=("hs_m_preset",), items=("hs_library",), label="Material", density="compact",
+                   variant="outlined", hide_details=True, classes="mb-2", id="hs-preset")
+        r = "'material.' + hs_region + '."
+        number("hs_m_density", "Density", "kg/m³", f"{r}density'", id="hs-density")
+        number("hs_m_specific_heat", "Specific heat", "J/(kg K)", f"{r}specific_heat'", id="hs-cp")
+        number("hs_m_conductivity", "Conductivity", "W/(m K)", f"{r}conductivity'", id="hs-k")
+        note("Library values: {{ hs_library_note }}. Check them against the supplier's data.")
 
 
 def time_section(panel) -> None:
@@ -168,32 +166,29 @@ def time_section(panel) -> None:
 
 def probes_section(panel) -> None:
     ctrl = panel.ctrl
-    with section("Probes", "probes", "mdi-map-marker-outline"):
-        with v3.VExpansionPanelText():
-            with v3.VTable(density="compact", v_if="hs_probes.length", classes="mb-2", id="hs-probe-list"):
-                with html.Thead():
-                    with html.Tr():
-                        for h in ("Name", "Position ({{ hs_unit }})", "Threshold", ""):
-                            html.Th(h, classes="text-caption")
-                with html.Tbody():
-                    with html.Tr(v_for="(p, i) in hs_probes", key="p.name"):
-                        html.Td("{{ p.name }}", classes="text-caption")
-                        html.Td("{{ [p.x, p.y, p.z].map(v => Number(v).toPrecision(4)).join(', ') }}",
-                                classes="text-caption")
-                        html.Td("{{ p.threshold == null ? '–' : p.threshold + ' °C' }}", classes="text-caption")
-                        with html.Td():
-                            v3.VBtn(icon="mdi-close", size="x-small", variant="text",
-                                    click=(ctrl.hs_remove_probe, "[p.name]"))
-                        html.Td("{{ (hs_err['probe.' + i] || []).join(' ') }}", v_if="hs_err['probe.' + i]",
-                                classes="text-caption text-error")
-            with v3.VRow(dense=True):
+    with section("Probes", "probes", "mdi-map-marker-outline"), v3.VExpansionPanelText():
+        with v3.VTable(density="compact", v_if="hs_probes.length", classes="mb-2", id="hs-probe-list"):
+            with html.Thead(), html.Tr():
+                for h in ("Name", "Position ({{ hs_unit }})", "Threshold", ""):
+                    html.Th(h, classes="text-caption")
+            with html.Tbody(), html.Tr(v_for="(p, i) in hs_probes", key="p.name"):
+                html.Td("{{ p.name }}", classes="text-caption")
+                html.Td("{{ [p.x, p.y, p.z].map(v => Number(v).toPrecision(4)).join(', ') }}",
+                        classes="text-caption")
+                html.Td("{{ p.threshold == null ? '–' : p.threshold + ' °C' }}", classes="text-caption")
+                with html.Td():
+                    v3.VBtn(icon="mdi-close", size="x-small", variant="text",
+                            click=(ctrl.hs_remove_probe, "[p.name]"))
+                html.Td("{{ (hs_err['probe.' + i] || []).join(' ') }}", v_if="hs_err['probe.' + i]",
+                        classes="text-caption text-error")
+        with v3.VRow(dense=True):
+            with v3.VCol(cols=4):
+                number("hs_p_name", "Name", id="hs-p-name")
+            for c in "xyz":
                 with v3.VCol(cols=4):
-                    number("hs_p_name", "Name", id="hs-p-name")
-                for c in "xyz":
-                    with v3.VCol(cols=4 if c == "x" else 4):
-                        number(f"hs_p_{c}", c, ("hs_unit",), id=f"hs-p-{c}")
-                with v3.VCol(cols=4):
-                    number("hs_p_threshold", "Threshold", "°C", id="hs-p-threshold")
-            v3.VBtn("Add probe", prepend_icon="mdi-plus", size="small", variant="tonal", color="#2f5d50",
-                    click=ctrl.hs_add_probe, id="hs-add-probe")
-            note("Or choose 'place probe' above and click on the surface.")
+                    number(f"hs_p_{c}", c, ("hs_unit",), id=f"hs-p-{c}")
+            with v3.VCol(cols=4):
+                number("hs_p_threshold", "Threshold", "°C", id="hs-p-threshold")
+        v3.VBtn("Add probe", prepend_icon="mdi-plus", size="small", variant="tonal", color="#2f5d50",
+                click=ctrl.hs_add_probe, id="hs-add-probe")
+        note("Or choose 'place probe' above and click on the surface.")

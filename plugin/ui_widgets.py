@@ -22,10 +22,9 @@ def number(model: str, label: str, suffix: str = "", field: str | None = None, *
 def section(title: str, value: str, icon: str):
     """An expansion panel with a title row; use the returned text block as a context."""
     panel = v3.VExpansionPanel(value=value, elevation=0, classes="hs-section")
-    with panel:
-        with v3.VExpansionPanelTitle(classes="text-subtitle-2"):
-            v3.VIcon(icon, size="small", classes="mr-2", color="#2f5d50")
-            html.Span(title)
+    with panel, v3.VExpansionPanelTitle(classes="text-subtitle-2"):
+        v3.VIcon(icon, size="small", classes="mr-2", color="#2f5d50")
+        html.Span(title)
     return panel
 
 

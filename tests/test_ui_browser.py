@@ -20,8 +20,17 @@ import numpy as np
 import pytest
 
 sys.path.insert(0, str(Path(__file__).parent / "browser"))
-from uidriver import (UiServer, choose, fill, launch_browser, open_section, select_group, settle,  # noqa: E402
-                      view_pixels, wait_for)
+from uidriver import (
+    UiServer,
+    choose,
+    fill,
+    launch_browser,
+    open_section,
+    select_group,
+    settle,
+    view_pixels,
+    wait_for,
+)
 
 pytestmark = pytest.mark.browser
 playwright_api = pytest.importorskip("playwright.sync_api")
@@ -162,7 +171,7 @@ def test_ramp_run_animate_probe_and_export_match_the_cli(page, server, data_dir,
 
     out = tmp_path / "cli-results"
     done = subprocess.run([sys.executable, "-m", "heatsoak.core.cli", "run", str(tmp_path / "bundle" / "case.toml"),
-                           "--out", str(out), "--quiet"], capture_output=True, text=True, timeout=120)
+                           "--out", str(out), "--quiet"], capture_output=True, text=True, timeout=120, check=False)
     assert done.returncode == 0, done.stderr
     ui, cli = read_probe_csv(tmp_path / "ui-probes.csv"), read_probe_csv(out / "probes.csv")
     assert set(ui) == set(cli) and "T1" in ui

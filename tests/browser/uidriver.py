@@ -33,7 +33,7 @@ class UiServer:
     def __init__(self, case: Path, data_dir: Path, log_dir: Path):
         self.port = free_port()
         self.log_path = log_dir / "ui-server.log"
-        self._log = open(self.log_path, "w")
+        self._log = open(self.log_path, "w")  # noqa: SIM115 - open for the life of the server
         env = {**os.environ, "PYTHONUNBUFFERED": "1"}
         cmd = [sys.executable, "-m", "heatsoak.core.cli", "ui", str(case), "--data-dir", str(data_dir),
                "--server", "--port", str(self.port), "--host", "127.0.0.1"]
