@@ -91,6 +91,7 @@ def zip_folder(folder: Path) -> bytes:
 
 def screenshot_png(panel) -> bytes:
     """PNG bytes of the 3D view as it is now."""
+    panel.plotter.render()
     image = panel.plotter.screenshot(return_img=True)
     return iio.imwrite("<bytes>", image, extension=".png")
 
@@ -105,6 +106,7 @@ def animation_bytes(panel, run, fmt: str = "gif") -> bytes:
     images = []
     for k in picks:
         h_results.draw_frame(panel, k)
+        panel.plotter.render()
         images.append(panel.plotter.screenshot(return_img=True))
     h_results.draw_frame(panel, keep)
     fps = max(1, int(state.hs_speed or 5))

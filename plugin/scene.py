@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 import vtk
+from vtk.util import numpy_support
 
 from .pvtrame import pv
 
@@ -122,6 +123,8 @@ class Scene:
             self._remove(name)
         if "groups" in self._actors:
             self._actors["groups"].visibility = True
+        self.shown = None
+        self.set_time_text("")
 
     # --------------------------------------------------------------- picking
     def pick(self, x: float, y: float):
@@ -202,9 +205,9 @@ class Scene:
         """Overwrite the shown scalars with nodal values (n_nodes,), in place."""
         if self.shown is None:
             return
-        arr = self.shown.point_data["T"]
-        arr[:] = np.asarray(nodal)[self.shown_nodes]
-        self.shown.point_data["T"] = arr  # marks the array modified for VTK
+        vtk_array = self.shown.GetPointData().GetArray("T")
+        numpy_support.vtk_to_numpy(vtk_array)[:] = np.asarray(nodal)[self.shown_nodes]
+        vtk_array.Modified()  # same array, same actor: only the values changed
 
     def set_range(self, lo: float, hi: float) -> None:
         """Colour range of the result [degC]."""

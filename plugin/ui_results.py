@@ -82,7 +82,6 @@ def curves(panel) -> None:
                         html.Td("{{ row.run }}", classes="text-caption")
                         html.Td("{{ row.probe }}", classes="text-caption")
                         html.Td("{{ row.last == null ? '' : row.last.toFixed(4) }}", classes="text-caption hs-last")
-                        html.Td("{{ row.max == null ? '' : row.max.toFixed(4) }}", classes="text-caption")
                         html.Td("{{ row.threshold == null ? '–' : row.threshold }}", classes="text-caption")
                         html.Td("{{ row.crossing == null ? (row.threshold == null ? '' : 'not reached') : "
                                 "row.crossing.toPrecision(4) + ' s' }}", classes="text-caption")
