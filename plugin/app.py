@@ -16,8 +16,16 @@ from heatsoak.core.errors import InputError
 from . import files
 from .access import decide_access
 
-#: The case opened when ``heatsoak ui`` is given no file.
-DEMO_CASE = Path(__file__).resolve().parent.parent / "meshes" / "demo.toml"
+#: The case opened when ``heatsoak ui`` is given no file (from a source checkout).
+MESHES = Path(__file__).resolve().parent.parent / "meshes"
+DEMO_CASE = MESHES / "demo.toml"
+
+
+def default_input() -> Path:
+    """The demo case, or else the first case file beside it."""
+    if DEMO_CASE.exists() or not MESHES.is_dir():
+        return DEMO_CASE
+    return next(iter(sorted(MESHES.glob("*.toml"))), DEMO_CASE)
 
 
 def build_app(server, input_path=None, data_dir=None, work_dir=None, view_mode: str = "server"):
@@ -70,7 +78,7 @@ def cmd_ui(args) -> int:
     """``heatsoak ui [input] [--data-dir] [--port] [--host] [--key-file] [--server]``."""
     access = decide_access(args.host, args.key_file)
     data_dir = Path(args.data_dir).resolve() if args.data_dir else None
-    input_path = Path(args.input) if args.input else DEMO_CASE
+    input_path = Path(args.input) if args.input else default_input()
     if data_dir is None:
         data_dir = input_path.resolve().parent if input_path.exists() else Path.cwd()
     if not data_dir.is_dir():
