@@ -31,8 +31,8 @@ import scipy.sparse.linalg as spla
 
 from ..assembly import Assembler
 from ..errors import InputError, StabilityError
-from ..linsolve import choose_solver, make_solver
-from ..operators import build_operators
+from ..linsolve import choose_solver, make_solver, stiffness_ratio
+from ..operators import build_operators, left_value
 from ..problem import Problem, TimeSettings
 from .base import Integrator, step_times
 
@@ -62,6 +62,16 @@ def lambda_max(K: sp.spmatrix, M) -> float:
     op = spla.LinearOperator(K.shape, matvec=lambda x: Minv(K @ x), dtype=float)
     # M^-1 K is self-adjoint in the M inner product; a plain Arnoldi on it converges to the top eigenvalue.
     return float(np.max(spla.eigs(op, k=1, which="LR", tol=1e-6, return_eigenvectors=False).real))
+
+
+def _dot(a: np.ndarray, b: np.ndarray) -> float:
+    """a . b without BLAS: a threaded BLAS dot stalls for milliseconds when the other core is busy."""
+    return float(np.einsum("i,i->", a, b))
+
+
+def _matvec(A: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """Dense (n, k) @ (k,) without BLAS, for the same reason as :func:`_dot`."""
+    return np.einsum("ij,j->i", A, x)
 
 
 class ThetaMethod(Integrator):
@@ -98,7 +108,8 @@ class ThetaMethod(Integrator):
             self._Mff, self._Mfp = M[f], None
         else:
             self._Mff, self._Mfp = M[f][:, f].tocsr(), M[f][:, p].tocsr()
-        self.solver_name, self.solver_reason = choose_solver(len(f), time.solver)
+        self.solver_name, self.solver_reason = self._choose_solver()
+        self._precompute_step_terms()
         self._solvers = {}
         self.factorizations = 0
         self.dt_critical = None
@@ -111,6 +122,40 @@ class ThetaMethod(Integrator):
         self._energy = dict(stored_J=0.0, boundary_in_J=0.0, source_in_J=0.0, dirichlet_in_J=0.0)
 
     # -- setup -------------------------------------------------------------
+    def _choose_solver(self):
+        """choose_solver with this problem's size, stiffness ratio (largest step) and step count."""
+        s = self.settings
+        if len(self.ops.free) == 0:
+            return choose_solver(0, s.solver)
+        M_diag = self._Mff if self.ops.lumped else self._Mff.diagonal()
+        ratio = stiffness_ratio(self._Kff.diagonal(), M_diag, s.step, max(self.theta, 0.5))
+        steps = int(np.ceil(self.end / s.step))
+        return choose_solver(len(self.ops.free), s.solver, nnz=self._Kff.nnz, ratio=ratio, steps=steps)
+
+    def _precompute_step_terms(self):
+        """Fixed parts of a step's right-hand side and energy balance, so a step costs one
+        mat-vec besides the solve: loads restricted to free nodes, and column sums that
+        turn the balance's sums of mat-vecs into dot products."""
+        ops, f, p = self.ops, self.ops.free, self.ops.fixed
+        n = ops.stiffness.shape[0]
+        vecs = [vec for _, vec, _ in ops.loads]
+        self._V_f = np.column_stack([v[f] for v in vecs]) if vecs else np.zeros((len(f), 0))
+        self._load_sum = np.array([v.sum() for v in vecs])
+        self._load_fixed_sum = np.array([v[p].sum() for v in vecs])
+        self._load_kind = np.array([k for _, _, k in ops.loads], dtype=object)
+        ones_p = np.zeros(n)
+        ones_p[p] = 1.0
+        self._m_all = ops.mass_apply(np.ones(n))  # 1^T M (M symmetric)
+        self._m_fixed = ops.mass_apply(ones_p)  # 1_p^T M
+        self._k_fixed = ops.stiffness.T @ ones_p  # 1_p^T (K + H)
+        self._h_all = ops.convection.T @ np.ones(n)  # 1^T H
+
+    def _load_coefficients(self, t: float, t_new: float, theta: float) -> np.ndarray:
+        """theta-weighted schedule values of the loads over a step, (n_loads,)."""
+        s0 = np.array([float(sched(t)) for sched, _, _ in self.ops.loads])
+        s1 = np.array([left_value(sched, t, t_new) for sched, _, _ in self.ops.loads])
+        return theta * s1 + (1.0 - theta) * s0
+
     def _check_stability(self):
         lam = lambda_max(self._Kff, self._Mff)
         self.dt_critical = np.inf if lam <= 0 else 2.0 / ((1.0 - 2.0 * self.theta) * lam)
@@ -170,24 +215,25 @@ class ThetaMethod(Integrator):
         theta = 1.0 if t_new in self._damped else self.theta
         # values inside the step: at t_new the limit from the left, so a jump at t_new acts after it
         Tp0, Tp1 = T[p], ops.fixed_values(t_new, start=t)
-        F0, F1 = ops.load(t), ops.load(t_new, start=t)
-        Ftheta = theta * F1 + (1.0 - theta) * F0
+        coef = self._load_coefficients(t, t_new, theta)
         Tf = T[f]
-        rhs = self._mff(Tf) / dt - (1.0 - theta) * (self._Kff @ Tf) + Ftheta[f]
+        # solve for the increment so iterative solvers stop relative to the change per step:
+        # b = rhs - A Tf = F_theta - K_ff Tf - (coupling to prescribed nodes); M_ff Tf / dt cancels
+        b = _matvec(self._V_f, coef) - self._Kff @ Tf
         if p.size:
             Tp_th = theta * Tp1 + (1.0 - theta) * Tp0
-            rhs -= self._Kfp @ Tp_th
+            b -= self._Kfp @ Tp_th
             if self._Mfp is not None:
-                rhs -= self._Mfp @ ((Tp1 - Tp0) / dt)
+                b -= self._Mfp @ ((Tp1 - Tp0) / dt)
         solver = self._solver(dt, theta)
-        # solve for the increment so iterative solvers stop relative to the change per step
-        A_Tf = self._mff(Tf) / dt + theta * (self._Kff @ Tf)
-        dTf = solver.solve(rhs - A_Tf, x0=getattr(self, "_last_dTf", None))
-        self._last_dTf = dTf
+        last = getattr(self, "_last_dTf", None)
+        # warm start: the last increment, scaled to this step's length
+        dTf = solver.solve(b, x0=None if last is None else last[0] * (dt / last[1]))
+        self._last_dTf = (dTf, dt)
         T_new = T.copy()
         T_new[f] = Tf + dTf
         T_new[p] = Tp1
-        self._account(T, T_new, dt, theta, t, t_new)
+        self._account(T, T_new, dt, theta, coef)
         jump = ops.fixed_values(t_new) - Tp1
         if np.any(jump != 0.0):
             # a prescribed temperature that jumps at t_new does so instantly: the heat it takes
@@ -198,18 +244,24 @@ class ThetaMethod(Integrator):
             self._energy["dirichlet_in_J"] += dE
         return T_new
 
-    def _account(self, T0, T1, dt, theta, t, t_new):
-        """Add this step's heat to the energy balance (all nodes, theta-weighted)."""
-        ops = self.ops
+    def _account(self, T0, T1, dt, theta, coef):
+        """Add this step's heat to the energy balance (all nodes, theta-weighted).
+
+        With r = M (T1 - T0)/dt + (K + H) T_theta - F_theta the nodal heat
+        residual, stored heat is sum M (T1 - T0), boundary heat sum F_b - sum H T_theta,
+        source heat sum F_s and the heat through prescribed nodes sum of r over them;
+        each sum of a mat-vec is a dot product with precomputed column sums.
+        """
         Tth = theta * T1 + (1 - theta) * T0
-        dE = ops.mass_apply(T1 - T0)
-        Fb = theta * ops.load(t_new, "boundary", start=t) + (1 - theta) * ops.load(t, "boundary")
-        Fs = theta * ops.load(t_new, "source", start=t) + (1 - theta) * ops.load(t, "source")
-        r = dE / dt + ops.stiffness @ Tth - Fb - Fs
-        self._energy["stored_J"] += dE.sum()
-        self._energy["boundary_in_J"] += dt * (Fb.sum() - (ops.convection @ Tth).sum())
-        self._energy["source_in_J"] += dt * Fs.sum()
-        self._energy["dirichlet_in_J"] += dt * r[ops.fixed].sum()
+        d = T1 - T0
+        kind = self._load_kind
+        Fb = float(coef[kind == "boundary"] @ self._load_sum[kind == "boundary"])
+        Fs = float(coef[kind == "source"] @ self._load_sum[kind == "source"])
+        r_fixed = _dot(self._m_fixed, d) / dt + _dot(self._k_fixed, Tth) - coef @ self._load_fixed_sum
+        self._energy["stored_J"] += _dot(self._m_all, d)
+        self._energy["boundary_in_J"] += dt * (Fb - _dot(self._h_all, Tth))
+        self._energy["source_in_J"] += dt * Fs
+        self._energy["dirichlet_in_J"] += dt * float(r_fixed)
 
     # -- reports ---------------------------------------------------------------
     def energy(self) -> dict:

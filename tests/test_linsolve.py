@@ -1,0 +1,194 @@
+"""Linear solvers: every path gives the same temperatures, the stopping rule holds, auto chooses sensibly."""
+
+import numpy as np
+import pytest
+import scipy.sparse as sp
+from heatsoak.core import linsolve
+from heatsoak.core.assembly import Assembler
+from heatsoak.core.errors import InputError
+from heatsoak.core.generate import box_mesh
+from heatsoak.core.linsolve import CGSolver, DirectSolver, choose_solver, estimate_costs, stiffness_ratio
+from heatsoak.core.problem import Boundary, Material, Problem, TimeSettings
+from heatsoak.core.schedule import Constant, Ramp
+from heatsoak.core.stepping import ThetaMethod
+from scipy.special import erf
+
+pytest.importorskip("pyamg")
+
+ALPHA, K = 1e-5, 10.0
+STEEL = Material(K / ALPHA, 1.0, K)
+PATHS = ["superlu", "cholmod", "cg-jacobi", "cg-amg"]
+
+
+def _solver_for(path, monkeypatch):
+    """TimeSettings.solver name for a solver path; 'superlu' hides CHOLMOD."""
+    if path == "cholmod" and not linsolve.cholmod_available():
+        pytest.skip("scikit-sparse (CHOLMOD) is not installed")
+    if path == "superlu":
+        monkeypatch.setattr(linsolve, "cholmod_available", lambda: False)
+    return "direct" if path in ("superlu", "cholmod") else path
+
+
+def erf_bar(n=40, length=0.1):
+    mesh = box_mesh((n, 1, 1), size=(length, length / n, length / n))
+    return Problem(mesh, {"box": STEEL}, {"xmin": Boundary("temperature", Constant(100.0))}, initial=0.0)
+
+
+def convection_box(n=8):
+    """A 3-D box: convection on two sides, a heat flux ramp on a third, a source, a held side."""
+    mesh = box_mesh((n, n, n), size=(0.05, 0.04, 0.03))
+    mat = Material(K / ALPHA, 1.0, K, source=Constant(2e5))
+    bcs = {
+        "xmax": Boundary("convection", h=50.0, ambient=Constant(300.0)),
+        "ymin": Boundary("convection", h=10.0, ambient=Constant(-20.0)),
+        "zmax": Boundary("heat_flux", Ramp(0.0, 5e3, 0.0, 20.0)),
+        "xmin": Boundary("temperature", Ramp(20.0, 80.0, 0.0, 30.0)),
+    }
+    return Problem(mesh, {"box": mat}, bcs, initial=20.0)
+
+
+def final_field(problem, solver, end, step, theta=1.0):
+    stepper = ThetaMethod(problem, TimeSettings(end=end, step=step, theta=theta, solver=solver))
+    for _, T in stepper.steps():
+        pass
+    return T, stepper
+
+
+@pytest.fixture(scope="module")
+def erf_reference():
+    return final_field(erf_bar(), "direct", end=40.0, step=1.0)[0]
+
+
+@pytest.fixture(scope="module")
+def box_reference():
+    return final_field(convection_box(), "direct", end=60.0, step=2.0, theta=0.5)[0]
+
+
+@pytest.mark.parametrize("path", PATHS)
+def test_every_solver_gives_the_erf_bar_temperatures_of_the_direct_solver(path, monkeypatch, erf_reference):
+    T, stepper = final_field(erf_bar(), _solver_for(path, monkeypatch), end=40.0, step=1.0)
+    np.testing.assert_allclose(T, erf_reference, rtol=0, atol=1e-6)
+    # and they are the semi-infinite solid's (Carslaw & Jaeger, Conduction of Heat in Solids,
+    # 2nd ed., sec. 2.4, from memory) to the discretisation error, over the first 2 cm
+    x = stepper.problem.mesh.points[:, 0]
+    near = x < 0.02
+    exact = 100.0 * (1.0 - erf(x[near] / (2.0 * np.sqrt(ALPHA * 40.0))))
+    assert np.abs(T[near] - exact).max() < 1.5
+
+
+@pytest.mark.parametrize("path", PATHS)
+def test_every_solver_gives_the_convection_box_temperatures_of_the_direct_solver(path, monkeypatch, box_reference):
+    T, _ = final_field(convection_box(), _solver_for(path, monkeypatch), end=60.0, step=2.0, theta=0.5)
+    np.testing.assert_allclose(T, box_reference, rtol=0, atol=1e-6)
+    assert T.max() - T.min() > 10.0  # the case is not trivially uniform
+
+
+# -- the stopping rule ---------------------------------------------------------------------------
+
+
+def _system(n=12, fourier=20.0):
+    """A = M/dt + K on a unit cube with alpha dt / h^2 = fourier (alpha = 1)."""
+    asm = Assembler(box_mesh((n, n, n)))
+    K, M = asm.stiffness(1.0), asm.mass(1.0)
+    dt = fourier / n**2
+    return sp.csr_matrix(M / dt + K), K, M, dt
+
+
+@pytest.mark.parametrize("pre", ["jacobi", "amg"])
+def test_cg_stops_on_the_relative_residual_and_the_increment_is_then_exact_to_1e_7(pre):
+    A, *_ = _system()
+    rng = np.random.default_rng(1)
+    exact = rng.standard_normal(A.shape[0])
+    b = A @ exact
+    s = CGSolver(A, pre)
+    x = s.solve(b)
+    r = b - A @ x
+    scale = s.scale if s.scale is not None else np.ones_like(b)
+    assert np.linalg.norm(r * scale) <= s.rtol * np.linalg.norm(b * scale) * (1 + 1e-6)
+    assert np.linalg.norm(x - exact) <= 1e-7 * np.linalg.norm(exact)  # the docstring's bound
+    assert s.iterations > 0
+
+
+def test_cg_warm_started_at_the_answer_takes_no_iteration_and_near_it_few():
+    A, *_ = _system()
+    exact = np.linspace(0.0, 1.0, A.shape[0])
+    b = A @ exact
+    s = CGSolver(A, "jacobi")
+    s.solve(b)
+    cold = s.iterations
+    s.solve(b, x0=exact)
+    assert s.iterations == 0
+    s.solve(b, x0=exact * (1 + 1e-4))
+    assert 0 < s.iterations < cold
+
+
+def test_cg_increment_of_a_step_matches_the_direct_one_to_1e_7_of_itself():
+    # far below the backward-Euler error of a step, dt lambda / 2 of the increment for a mode
+    # decaying at rate lambda (common practice, no source)
+    A, K, _, _ = _system(n=10, fourier=1.0)
+    T0 = np.ones(A.shape[0])
+    b = -(K @ T0) + 1.0  # a uniform source against a uniform field
+    direct = DirectSolver(A).solve(b)
+    cg = CGSolver(A, "jacobi").solve(b)
+    assert np.linalg.norm(cg - direct) < 1e-7 * np.linalg.norm(direct)
+
+
+# -- auto ------------------------------------------------------------------------------------------
+
+
+def test_auto_takes_the_direct_solver_for_a_small_system_and_says_why():
+    name, reason = choose_solver(2000, "auto", ratio=15.0, steps=1000)
+    assert name == "direct"
+    assert "2000 unknowns" in reason and "direct" in reason
+
+
+def test_auto_takes_a_krylov_solver_when_the_factor_would_not_fit():
+    name, reason = choose_solver(270_000, "auto", ratio=300.0, steps=1000, budget_gb=0.5)
+    assert name in ("cg-jacobi", "cg-amg")
+    assert "direct left out" in reason
+    assert choose_solver(270_000, "auto", ratio=300.0, steps=1000, budget_gb=100.0)[0] == "direct"
+
+
+def test_auto_takes_jacobi_for_short_steps_and_not_for_long_ones_on_a_large_mesh():
+    short = estimate_costs(270_000, 15 * 270_000, 15.0, 1000, budget_gb=100.0)
+    long = estimate_costs(270_000, 15 * 270_000, 15.0 * 100, 1000, budget_gb=100.0)
+    assert min(short, key=short.get) == "cg-jacobi"
+    assert min(long, key=long.get) == "direct"
+    no_room = estimate_costs(270_000, 15 * 270_000, 15.0 * 100, 1000, budget_gb=0.0)
+    assert min(no_room, key=no_room.get) == "cg-amg"
+
+
+def test_a_factor_of_a_3d_mesh_grows_like_n_to_the_four_thirds():
+    ratio = linsolve.factor_memory_gb(8 * 10**5) / linsolve.factor_memory_gb(10**5)
+    assert ratio == pytest.approx(16.0)  # nested dissection on a 3-D grid, common practice, no source
+
+
+def test_a_named_solver_is_kept_and_an_unknown_one_is_refused():
+    assert choose_solver(10**6, "cg-amg") == ("cg-amg", "chosen by the user")
+    with pytest.raises(InputError, match="magic"):
+        choose_solver(10, "magic")
+
+
+def test_the_stiffness_ratio_is_15_fourier_numbers_on_the_box_grid():
+    n = 10
+    asm = Assembler(box_mesh((n, n, n)))
+    K, M = asm.stiffness(1.0), asm.mass(1.0)
+    assert stiffness_ratio(K.diagonal(), M.diagonal(), dt=2.0 / n**2, theta=1.0) == pytest.approx(30.0)
+
+
+def test_the_stepper_reports_the_choice_and_its_reason():
+    _, stepper = final_field(erf_bar(n=10), "auto", end=2.0, step=1.0)
+    report = stepper.report()
+    assert report["solver"] in linsolve.SOLVERS
+    assert "unknowns" in report["reason"]
+
+
+# -- factorisations --------------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize("solver", ["direct", "cg-jacobi", "cg-amg"])
+def test_each_distinct_step_builds_its_solver_once(solver):
+    # Crank-Nicolson with the backward-Euler start: (dt/2, theta 1) and (dt, theta 1/2)
+    _, stepper = final_field(erf_bar(n=10), solver, end=20.0, step=1.0, theta=0.5)
+    assert stepper.factorizations == 2
+    assert stepper.step_count == 22
