@@ -309,8 +309,8 @@ def refresh_preview(panel) -> None:
         return
     try:
         sched = parse_schedule(schedule_value(form, f"boundary.{state.hs_group}"), f"boundary.{state.hs_group}")
-    except (FormError, InputError) as exc:
-        state.hs_preview = plots.empty_svg(f"no preview: {exc}"[:90], width=3.9)
+    except (FormError, InputError):
+        state.hs_preview = plots.empty_svg("no preview until the entries above are fixed", width=3.9)
         return
     end = _positive(state.hs_t_end, 600.0)
     t_last = max([end, *sched.breakpoints()])

@@ -75,7 +75,7 @@ def curves(panel) -> None:
             html.Div(v_html=("hs_probe_svg",), classes="hs-plot", id="hs-probe-plot")
             with v3.VTable(density="compact", v_if="hs_probe_table.length", id="hs-probe-values"):
                 with html.Thead(), html.Tr():
-                    for h in ("Run", "Probe", "Last [°C]", "Max [°C]", "Threshold", "Crossed at"):
+                    for h in ("Run", "Probe", "Last [°C]", "Limit [°C]", "Reached at"):
                         html.Th(h, classes="text-caption")
                 with html.Tbody():
                     with html.Tr(v_for="row in hs_probe_table", key="row.run + row.probe", classes="hs-probe-row"):

@@ -193,6 +193,17 @@ def test_bad_table_is_marked_at_the_field_without_traceback(page, server, shots)
     assert page.locator("#hs-run").is_disabled()
     assert "does not increase" in page.inner_text("#hs-run-reason")
     page.screenshot(path=str(shots / "5-bad-table.png"))
+    open_section(page, "Start and time")
+    fill(page, "#hs-step", 1e9)
+    step_field = page.locator("#hs-step").locator("xpath=ancestor::div[contains(@class,'v-input')]").first
+    step_field.locator(".v-messages__message", has_text="must be <=").wait_for(timeout=15_000)
+    fill(page, "#hs-step", 20)
+    open_section(page, "Materials")
+    fill(page, "#hs-density", -5)
+    density_field = page.locator("#hs-density").locator("xpath=ancestor::div[contains(@class,'v-input')]").first
+    density_field.locator(".v-messages__message", has_text="must be > 0").wait_for(timeout=15_000)
+    page.screenshot(path=str(shots / "5b-bad-density.png"))
+    fill(page, "#hs-density", 7900)
     assert "Traceback" not in page.content()
     assert "Traceback" not in server.log()
 
@@ -257,6 +268,8 @@ def test_cancel_keeps_the_steps_done(page, server):
 def test_picture_and_animation_export(page, tmp_path):
     import imageio.v3 as iio
 
+    page.locator(".hs-run-row").first.locator("button .mdi-eye-outline").click()
+    choose(page, "#hs-diff", "temperature")
     with page.expect_download() as dl:
         page.click("#hs-export-png")
     dl.value.save_as(tmp_path / "view.png")
