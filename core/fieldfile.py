@@ -59,6 +59,21 @@ class FieldSeries:
             lo, hi = min(lo, float(f.min())), max(hi, float(f.max()))
         return lo, hi
 
+    def nearest(self, t: float) -> int:
+        """Index of the frame whose time is closest to ``t`` [s]."""
+        return int(np.argmin(np.abs(self.times - float(t))))
+
+    def difference(self, other: FieldSeries, k: int) -> np.ndarray:
+        """Frame ``k`` minus the frame of ``other`` nearest in time, (n_nodes,) [K].
+
+        Both series must be on the same mesh.
+        """
+        return self.frame(k) - other.frame(other.nearest(self.times[k]))
+
+    def difference_bound(self, other: FieldSeries) -> float:
+        """Largest absolute difference to ``other`` over every frame [K] (a symmetric colour range)."""
+        return max((float(np.abs(self.difference(other, k)).max()) for k in range(len(self))), default=0.0)
+
     def close(self) -> None:
         if self._h5.id.valid:
             self._h5.close()

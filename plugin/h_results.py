@@ -149,21 +149,13 @@ def whole_run_range(run, diff) -> list:
         if t.get("min") and t.get("max"):
             return [float(t["min"]["value"]), float(t["max"]["value"])]
         return list(run.series.range())
-    lo, hi = 0.0, 0.0
-    for k in range(len(run.series)):
-        d = frame_values(run, diff, k)
-        lo, hi = min(lo, float(d.min())), max(hi, float(d.max()))
-    m = max(abs(lo), abs(hi), 1e-9)
-    return [-m, m]
+    bound = max(run.series.difference_bound(diff.series), 1e-9)
+    return [-bound, bound]
 
 
 def frame_values(run, diff, k: int) -> np.ndarray:
     """Nodal values of frame ``k``: the temperature, or its difference to run ``diff`` at the nearest time."""
-    values = run.series.frame(k)
-    if diff is None:
-        return values
-    j = int(np.argmin(np.abs(diff.series.times - run.series.times[k])))
-    return values - diff.series.frame(j)
+    return run.series.frame(k) if diff is None else run.series.difference(diff.series, k)
 
 
 def draw_frame(panel, k: int) -> None:
