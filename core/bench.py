@@ -10,18 +10,20 @@ Each size runs in a fresh process, so its memory is its own. Per size:
   mesh (its basis included), when scikit-fem is installed;
 * for two time steps, alpha dt / h^2 = 1 and 20 (backward Euler): what
   ``solver = "auto"`` picks; one full step against the bare solve inside it;
-  a whole run of ``--steps`` steps writing the field every 50 steps (XDMF),
-  with its peak memory; the other solvers' estimated time for the same run
-  (setup + steps x median step over the first 12 steps); and the extra time
-  of writing the field at every step.
+  every solver's estimated time for a run of ``--steps`` steps (setup +
+  steps x median step over the first 12 steps); the time of writing the
+  field, as a fraction of a step; and, in a fresh process, a whole run of
+  ``--steps`` steps with auto's solver (assembly included) writing the field
+  every 50 steps (XDMF), with the run's peak resident memory (the process
+  and the mesh included).
 
 ``--json FILE`` writes a list of records, one per size and time step, with
 the keys size, elements, nodes, fourier, dt_s, assemble_s, reassemble_s,
 skfem_assemble_s, solver, solver_reason, factor_s, step_s, bare_solve_s,
 iterations, run_1000_s (the run of ``--steps`` steps, 1000 by default),
 steps, fields_written, field_every_step_overhead, peak_rss_mb (peak of the
-whole run), assemble_peak_mb and compare (estimated run time per solver,
-null where left out).
+whole run), assemble_peak_mb, energy_imbalance, run_solver and compare
+(estimated run time per solver, null where left out).
 """
 
 from __future__ import annotations
@@ -50,13 +52,14 @@ COMPARE_DIRECT_GB = 6.0
 
 
 def measure_size(name: str, steps: int) -> list:
-    """All phases of one size; one record per Fourier number (see the module doc)."""
+    """All phases of one size but the whole runs; one record per Fourier number (see the module doc)."""
     n = SIZES[name]
     mesh = ph.bench_mesh(n)
     reps = 3 if n <= 40 else 2
     asm = ph.assembly(mesh, reps)
     skfem = ph.skfem_assembly(mesh, reps=2 if n <= 40 else 1)
     skip = ("direct",) if factor_memory_gb(mesh.n_nodes) > COMPARE_DIRECT_GB else ()
+    ph.warm_up()
     records = []
     with tempfile.TemporaryDirectory() as tmp:
         for fo in FOURIERS:
@@ -64,9 +67,6 @@ def measure_size(name: str, steps: int) -> list:
             problem = ph.bench_problem(mesh, dt)
             auto, reason = ph.auto_choice(problem, dt, steps)
             compare = ph.solver_comparison(problem, dt, steps, skip=skip)
-            out = Path(tmp) / f"fo{fo:g}"
-            out.mkdir()
-            run = ph.run(problem, dt, steps, auto, out, FIELD_EVERY)
             chosen = compare[auto] or ph.step_costs(problem, dt, auto)
             records.append({
                 "size": name, "elements": mesh.n_cells, "nodes": mesh.n_nodes, "fourier": fo, "dt_s": dt,
@@ -74,13 +74,23 @@ def measure_size(name: str, steps: int) -> list:
                 "skfem_assemble_s": skfem, "assemble_peak_mb": asm["assemble_peak_mb"],
                 "solver": auto, "solver_reason": reason, "factor_s": chosen["factor_s"],
                 "step_s": chosen["step_s"], "bare_solve_s": chosen["bare_solve_s"],
-                "iterations": chosen["iterations"], "run_1000_s": run["run_s"], "steps": steps,
-                "fields_written": run["fields_written"],
-                "field_every_step_overhead": ph.field_overhead(problem, dt, auto, out),
-                "peak_rss_mb": run["run_peak_mb"], "energy_imbalance": run["energy_imbalance"],
+                "iterations": chosen["iterations"], "steps": steps,
+                "field_every_step_overhead": ph.field_overhead(problem, dt, auto, tmp),
                 "compare": {k: None if v is None else v["estimate_s"] for k, v in compare.items()},
             })
     return records
+
+
+def whole_run(name: str, fourier: float, steps: int, solver: str) -> dict:
+    """One run of ``steps`` steps (fields every :data:`FIELD_EVERY`), for a fresh process."""
+    with tempfile.TemporaryDirectory() as tmp:
+        return ph.run(SIZES[name], fourier, steps, solver, tmp, FIELD_EVERY)
+
+
+def _fresh_process(func, *args):
+    """``func(*args)`` in a new Python process, so its memory and caches are its own."""
+    with ProcessPoolExecutor(max_workers=1, mp_context=get_context("spawn")) as pool:
+        return pool.submit(func, *args).result()
 
 
 def machine() -> str:
@@ -141,7 +151,7 @@ def table_rows(records: list) -> list:
         ratio = f"auto {est[solver] / min(est.values()):.2f}x of best*" if solver in est else "-"
         rows.append((size, f"{r['steps']} steps, {fo} ({solver}), fields/{FIELD_EVERY}", _t(r["run_1000_s"]), ref,
                      ratio, f"{r['peak_rss_mb']:.0f}"))
-        rows.append((size, f"field written every step, {fo}", f"+{100 * r['field_every_step_overhead']:.0f}%",
+        rows.append((size, f"field written every step, {fo}", f"{100 * r['field_every_step_overhead']:+.0f}%",
                      "-", "of the step time", ""))
     return rows
 
@@ -172,8 +182,9 @@ def cmd_bench(args) -> int:
     records = []
     for name in sizes:
         print(f"measuring {name} ...", file=sys.stderr, flush=True)
-        with ProcessPoolExecutor(max_workers=1, mp_context=get_context("spawn")) as pool:
-            records += pool.submit(measure_size, name, args.steps).result()
+        for r in _fresh_process(measure_size, name, args.steps):
+            r.update(_fresh_process(whole_run, name, r["fourier"], args.steps, r["solver"]))
+            records.append(r)
     print(format_table(table_rows(records)))
     for r in records:
         print(f"auto, {r['size']}, Fo {r['fourier']:g}: {r['solver']}: {r['solver_reason']}")

@@ -11,7 +11,8 @@ from heatsoak.core.errors import InputError
 
 KEYS = {"size", "elements", "nodes", "assemble_s", "reassemble_s", "skfem_assemble_s", "factor_s", "step_s",
         "bare_solve_s", "run_1000_s", "solver", "peak_rss_mb", "fourier", "dt_s", "solver_reason", "iterations",
-        "steps", "fields_written", "field_every_step_overhead", "assemble_peak_mb", "compare", "energy_imbalance"}
+        "steps", "fields_written", "field_every_step_overhead", "assemble_peak_mb", "compare", "energy_imbalance",
+        "run_solver"}
 
 
 @pytest.fixture(scope="module")
@@ -37,6 +38,8 @@ def test_the_tiny_benchmark_runs_and_writes_one_record_per_time_step(tiny_run):
         assert r["solver"] in r["compare"] and r["compare"][r["solver"]] > 0
         assert r["peak_rss_mb"] > 10
         assert r["energy_imbalance"] < 1e-9  # heat stored = heat in (conservation)
+        assert r["run_solver"] == r["solver"]
+        assert 0 < r["field_every_step_overhead"] < 10
 
 
 def test_the_table_has_a_row_per_size_and_phase(tiny_run):
