@@ -109,7 +109,11 @@ def animation_bytes(panel, run, fmt: str = "gif") -> bytes:
         panel.plotter.render()
         images.append(panel.plotter.screenshot(return_img=True))
     h_results.draw_frame(panel, keep)
-    fps = max(1, int(state.hs_speed or 5))
+    return encode_movie(images, max(1, int(state.hs_speed or 5)), fmt)
+
+
+def encode_movie(images, fps: int, fmt: str = "gif") -> bytes:
+    """GIF (looping) or MP4 bytes of RGB frames, each (h, w, 3) uint8."""
     if fmt == "gif":
         return iio.imwrite("<bytes>", images, extension=".gif", duration=1000 // fps, loop=0)
     return _mp4_ffmpeg(images, fps)

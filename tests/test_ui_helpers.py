@@ -5,7 +5,6 @@ from __future__ import annotations
 import copy
 
 import pytest
-
 from heatsoak.core.case import check_case_data
 from heatsoak.core.errors import InputError
 from heatsoak.core.generate import box_mesh
@@ -164,3 +163,19 @@ def test_library_material_is_written_with_its_source():
     assert entry["conductivity"] == 401.0 and "Incropera" in entry["label"]
     custom = forms.material_entry(form | {"preset": "custom", "conductivity": 380.0}, "core")
     assert "label" not in custom
+
+
+@pytest.mark.parametrize("fmt, magic", [("gif", b"GIF8"), ("mp4", b"ftyp")])
+def test_animation_encodes_every_frame(fmt, magic, tmp_path):
+    import imageio.v3 as iio
+    import numpy as np
+
+    from heatsoak.plugin.h_export import encode_movie
+
+    frames = [np.full((64, 96, 3), 25 * i, np.uint8) for i in range(6)]
+    data = encode_movie(frames, fps=5, fmt=fmt)
+    assert magic in data[:12]
+    if fmt == "gif":
+        (tmp_path / "a.gif").write_bytes(data)
+        back = iio.imread(tmp_path / "a.gif", index=None)
+        assert back.shape[0] == 6 and back[5].mean() > back[0].mean() + 100
