@@ -10,7 +10,7 @@ from pathlib import Path
 import pytest
 
 sys.path.insert(0, str(Path(__file__).parent / "browser"))
-from uidriver import free_port, launch_browser  # noqa: E402
+from uidriver import free_port, launch_browser
 
 MESHES = Path(__file__).resolve().parent.parent / "meshes"
 MESH = MESHES / "lblock.vtu"

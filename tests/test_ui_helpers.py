@@ -169,7 +169,6 @@ def test_library_material_is_written_with_its_source():
 def test_animation_encodes_every_frame(fmt, magic, tmp_path):
     import imageio.v3 as iio
     import numpy as np
-
     from heatsoak.plugin.h_export import encode_movie
 
     frames = [np.full((64, 96, 3), 25 * i, np.uint8) for i in range(6)]

@@ -10,9 +10,9 @@ import pytest
 pytest.importorskip("pyvista")
 os.environ.setdefault("VTK_DEFAULT_OPENGL_WINDOW", "vtkEGLRenderWindow")
 
-from heatsoak.core.generate import box_mesh  # noqa: E402
-from heatsoak.plugin.pvtrame import new_plotter  # noqa: E402
-from heatsoak.plugin.scene import Scene, boundary_polydata  # noqa: E402
+from heatsoak.core.generate import box_mesh
+from heatsoak.plugin.pvtrame import new_plotter
+from heatsoak.plugin.scene import Scene, boundary_polydata
 
 
 @pytest.fixture()
