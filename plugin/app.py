@@ -18,14 +18,12 @@ from .access import decide_access
 
 #: The case opened when ``heatsoak ui`` is given no file (from a source checkout).
 MESHES = Path(__file__).resolve().parent.parent / "meshes"
-DEMO_CASE = MESHES / "demo.toml"
+DEMO_CASE = MESHES / "platen_warmup.toml"
 
 
 def default_input() -> Path:
-    """The demo case, or else the first case file beside it."""
-    if DEMO_CASE.exists() or not MESHES.is_dir():
-        return DEMO_CASE
-    return next(iter(sorted(MESHES.glob("*.toml"))), DEMO_CASE)
+    """The demo case opened when no file is given."""
+    return DEMO_CASE
 
 
 def build_app(server, input_path=None, data_dir=None, work_dir=None, view_mode: str = "server"):
