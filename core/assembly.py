@@ -33,7 +33,7 @@ from .geometry import face_jacobians, isoparametric
 from .mesh import Mesh
 from .pattern import Pattern, build_pattern, element_entries
 
-__all__ = ["Assembler", "Pattern", "build_pattern", "BLOCK"]
+__all__ = ["BLOCK", "Assembler", "Pattern", "build_pattern"]
 
 #: Cells per block of element-matrix computation.
 BLOCK = 16384

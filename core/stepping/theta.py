@@ -128,7 +128,7 @@ class ThetaMethod(Integrator):
         if len(self.ops.free) == 0:
             return choose_solver(0, s.solver)
         M_diag = self._Mff if self.ops.lumped else self._Mff.diagonal()
-        ratio = stiffness_ratio(self._Kff.diagonal(), M_diag, s.step, max(self.theta, 0.5))
+        ratio = stiffness_ratio(self._Kff.diagonal(), M_diag, s.step, self.theta)
         steps = int(np.ceil(self.end / s.step))
         return choose_solver(len(self.ops.free), s.solver, nnz=self._Kff.nnz, ratio=ratio, steps=steps)
 
