@@ -192,3 +192,12 @@ def test_each_distinct_step_builds_its_solver_once(solver):
     _, stepper = final_field(erf_bar(n=10), solver, end=20.0, step=1.0, theta=0.5)
     assert stepper.factorizations == 2
     assert stepper.step_count == 22
+
+
+def test_a_long_run_of_equal_steps_factorises_once_despite_rounding_of_the_step_times():
+    # t_new - t of steps k dt drifts in the last bits as t grows; it is still one step size
+    problem = erf_bar(n=5)
+    stepper = ThetaMethod(problem, TimeSettings(end=41.3 * 1000, step=41.3, theta=1.0, solver="direct"))
+    times = [t for t, _ in stepper.steps()]
+    assert len(np.unique(np.diff(times))) > 1  # the drift is there
+    assert stepper.factorizations == 1

@@ -191,7 +191,8 @@ class ThetaMethod(Integrator):
         return grid
 
     def _solver(self, dt: float, theta: float):
-        key = (round(dt, 12), theta)
+        # steps of one size differ in their last bits (t_new - t): match cached sizes to 1e-9
+        key = next((k for k in self._solvers if k[1] == theta and abs(k[0] - dt) <= 1e-9 * dt), (dt, theta))
         s = self._solvers.get(key)
         if s is None:
             if self.ops.lumped:
