@@ -17,7 +17,7 @@ def scrambled_cells(order=1, seed=0):
 
 
 def coo_sum(cells, n, element_matrices):
-    ne, nb = cells.shape
+    nb = cells.shape[1]
     rows = np.repeat(cells, nb, axis=1).ravel()
     cols = np.tile(cells, (1, nb)).ravel()
     return sp.coo_matrix((element_matrices.ravel(), (rows, cols)), shape=(n, n)).tocsr()
