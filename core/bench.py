@@ -20,10 +20,11 @@ Each size runs in a fresh process, so its memory is its own. Per size:
 ``--json FILE`` writes a list of records, one per size and time step, with
 the keys size, elements, nodes, fourier, dt_s, assemble_s, reassemble_s,
 skfem_assemble_s, solver, solver_reason, factor_s, step_s, bare_solve_s,
-iterations, run_1000_s (the run of ``--steps`` steps, 1000 by default),
+iterations, krylov_spmv_s (as many bare mat-vecs as Krylov iterations; null
+for the direct solver), run_1000_s (the run of ``--steps`` steps, 1000 by default),
 steps, fields_written, field_every_step_overhead, peak_rss_mb (peak of the
-whole run), assemble_peak_mb, energy_imbalance, run_solver and compare
-(estimated run time per solver, null where left out).
+whole run), assemble_peak_mb, energy_imbalance, run_solver, machine and
+compare (estimated run time per solver, null where left out).
 """
 
 from __future__ import annotations
@@ -74,7 +75,7 @@ def measure_size(name: str, steps: int) -> list:
                 "skfem_assemble_s": skfem, "assemble_peak_mb": asm["assemble_peak_mb"],
                 "solver": auto, "solver_reason": reason, "factor_s": chosen["factor_s"],
                 "step_s": chosen["step_s"], "bare_solve_s": chosen["bare_solve_s"],
-                "iterations": chosen["iterations"], "steps": steps,
+                "iterations": chosen["iterations"], "krylov_spmv_s": chosen["krylov_spmv_s"], "steps": steps,
                 "field_every_step_overhead": ph.field_overhead(problem, dt, auto, tmp),
                 "compare": {k: None if v is None else v["estimate_s"] for k, v in compare.items()},
             })
@@ -144,7 +145,10 @@ def table_rows(records: list) -> list:
         fo, solver = f"Fo {r['fourier']:g}", r["solver"]
         if r["factor_s"] > 1e-3:
             rows.append((size, f"solver setup, {fo} ({solver})", _t(r["factor_s"]), "-", "-", ""))
-        rows.append((size, f"one step, {fo} ({solver})", _t(r["step_s"]), f"bare solve {_t(r['bare_solve_s'])}",
+        ref = f"bare solve {_t(r['bare_solve_s'])}"
+        if r.get("krylov_spmv_s"):
+            ref += f" ({r['iterations']:.0f} its; their mat-vecs {_t(r['krylov_spmv_s'])})"
+        rows.append((size, f"one step, {fo} ({solver})", _t(r["step_s"]), ref,
                      f"{r['step_s'] / r['bare_solve_s']:.2f}x of bare", ""))
         est = {k: v for k, v in r["compare"].items() if v is not None}
         ref = ", ".join(f"{k} {_t(v)}*" for k, v in sorted(est.items(), key=lambda kv: kv[1])) or "-"
@@ -179,11 +183,11 @@ def cmd_bench(args) -> int:
     print(f"heatsoak bench on {machine()}", flush=True)
     print("Fo = alpha dt / h^2; * estimated run of the same steps, setup + steps x median of the first 12 steps;"
           " runs include assembly and field output; peak MB: whole phase, process included", flush=True)
-    records = []
+    records, where = [], machine()
     for name in sizes:
         print(f"measuring {name} ...", file=sys.stderr, flush=True)
         for r in _fresh_process(measure_size, name, args.steps):
-            r.update(_fresh_process(whole_run, name, r["fourier"], args.steps, r["solver"]))
+            r.update(_fresh_process(whole_run, name, r["fourier"], args.steps, r["solver"]), machine=where)
             records.append(r)
     print(format_table(table_rows(records)))
     for r in records:

@@ -144,7 +144,9 @@ def step_costs(problem, dt: float, solver: str, steps: int = 12, skip: int = 2) 
     ``factor_s`` is the solver's setup (factorisation or preconditioner);
     ``step_s`` the median wall time of a whole step (loads, boundary terms,
     solve, energy balance) after ``skip`` steps; ``bare_solve_s`` the median
-    time of the solver's own solve call in the same steps.
+    time of the solver's own solve call in the same steps (the triangular
+    solves of the factor, or the whole Krylov solve); for Krylov solvers
+    ``krylov_spmv_s`` the time of as many bare mat-vecs as iterations.
     """
     stepper = stepper_for(problem, dt, steps, solver)
     t0 = time.perf_counter()
@@ -159,12 +161,18 @@ def step_costs(problem, dt: float, solver: str, steps: int = 12, skip: int = 2) 
         next(gen)
         step_times.append(time.perf_counter() - t0)
     n = slice(skip, None)
+    iterations = float(np.mean(timed.iterations[n]))
+    spmv = None
+    if iterations > 0:  # the Krylov iterations' mat-vecs alone, for comparison with the whole solve
+        x = np.ones(s.A.shape[0])
+        spmv = iterations * best_of(lambda: s.A @ x, 20)
     return {
         "solver": s.name,
         "factor_s": factor,
         "step_s": float(np.median(step_times[n])),
         "bare_solve_s": float(np.median(timed.times[n])),
-        "iterations": float(np.mean(timed.iterations[n])),
+        "iterations": iterations,
+        "krylov_spmv_s": spmv,
         "first_steps_s": float(np.sum(step_times)),
     }
 

@@ -12,7 +12,7 @@ from heatsoak.core.errors import InputError
 KEYS = {"size", "elements", "nodes", "assemble_s", "reassemble_s", "skfem_assemble_s", "factor_s", "step_s",
         "bare_solve_s", "run_1000_s", "solver", "peak_rss_mb", "fourier", "dt_s", "solver_reason", "iterations",
         "steps", "fields_written", "field_every_step_overhead", "assemble_peak_mb", "compare", "energy_imbalance",
-        "run_solver"}
+        "run_solver", "krylov_spmv_s", "machine"}
 
 
 @pytest.fixture(scope="module")
