@@ -73,7 +73,7 @@ from .casecheck import (
     _read_probes,
     _read_time,
 )
-from .errors import CaseError
+from .errors import CaseError, StabilityError
 from .mesh import Mesh
 from .problem import Problem, TimeSettings
 
@@ -149,7 +149,23 @@ def _build(data, base_dir, mesh: Mesh | None, source: str):
         "probes": _read_probes(ck, data, mesh, unit),
         "output_every": _read_output(ck, data),
     }
+    if not ck.issues:
+        _check_stability(ck, parts)
     return ck.issues, parts
+
+
+def _check_stability(ck, parts) -> None:
+    """An explicit theta (< 1/2) with a step above its stability limit is a problem of time.step."""
+    time = parts["time"]
+    if time is None or time.theta >= 0.5:
+        return
+    from .stepping import ThetaMethod
+
+    problem = Problem(parts["mesh"], parts["materials"], parts["boundaries"], parts["initial"])
+    try:
+        ThetaMethod(problem, time)
+    except StabilityError as exc:
+        ck.add("time.step", str(exc))
 
 
 def check_case_data(data: dict, base_dir, mesh: Mesh | None = None, source: str = "") -> list:

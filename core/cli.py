@@ -87,6 +87,9 @@ def main(argv=None) -> int:
     except HeatsoakError as exc:
         print(f"heatsoak {args.command}: {exc}", file=sys.stderr)
         return 1
+    except BrokenPipeError:  # output piped into a pager or head that closed early
+        sys.stderr.close()
+        return 0
     except KeyboardInterrupt:
         print(f"heatsoak {args.command}: interrupted", file=sys.stderr)
         return 1
