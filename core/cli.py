@@ -49,8 +49,9 @@ def _check_args(p):
 
 
 def _run_args(p):
-    p.add_argument("case", help="case file (TOML)")
-    p.add_argument("--out", help="results folder (default: CASE-results next to the case file)")
+    p.add_argument("case", nargs="+", help="case file(s) (TOML); several run one after the other")
+    p.add_argument("--out", help="results folder (default: CASE-results next to each case file; "
+                   "with several cases, one subfolder per case)")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
 
 

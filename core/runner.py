@@ -8,7 +8,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .case import Case, load_case
+from .case import Case, check_case, load_case
 from .errors import CaseError
 from .output import ResultFiles
 from .probes import ProbeSet
@@ -214,15 +214,37 @@ def _report(summary: dict, out_dir: Path) -> list:
     return lines
 
 
-def cmd_run(args) -> int:
-    """``heatsoak run CASE [--out DIR] [--quiet]``: run headless; exit 0 complete, 130 cancelled."""
-    case = load_case(args.case)
-    out = Path(args.out) if args.out else case.path.parent / f"{case.path.stem}-results"
-    bar = None if args.quiet else TerminalProgress()
+def _run_one(path, out, quiet: bool) -> dict:
+    case = load_case(path)
+    bar = None if quiet else TerminalProgress()
     try:
         summary = run_case(case, out, progress=bar)
     finally:
         if bar is not None:
             bar.done()
     print("\n".join(_report(summary, out)))
-    return 0 if summary["status"] == "complete" else EXIT_CANCELLED
+    return summary
+
+
+def cmd_run(args) -> int:
+    """``heatsoak run CASE [CASE ...] [--out DIR] [--quiet]``: run headless.
+
+    One case writes into DIR (default ``<case>-results`` beside it); several
+    cases (a batch) each write into ``DIR/<case stem>`` (default beside each
+    case). Every case is checked before the first one runs. Exit 0 when all
+    complete, 2 on bad input, 130 when cancelled.
+    """
+    paths = [Path(c) for c in ([args.case] if isinstance(args.case, str) else args.case)]
+    problems = [i.message for p in paths for i in check_case(p)] if len(paths) > 1 else []
+    if problems:
+        raise CaseError(problems)
+    for path in paths:
+        if args.out is None:
+            out = path.parent / f"{path.stem}-results"
+        else:
+            out = Path(args.out) / path.stem if len(paths) > 1 else Path(args.out)
+        if len(paths) > 1:
+            print(f"== {path}", flush=True)
+        if _run_one(path, out, args.quiet)["status"] != "complete":
+            return EXIT_CANCELLED
+    return 0
