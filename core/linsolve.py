@@ -187,31 +187,35 @@ def _rows(A: sp.csr_matrix) -> np.ndarray:
 
 
 def _pcg(A, b, x0, precond, rtol: float, maxiter: int):
-    """Conjugate gradients with in-place updates; returns (x, iterations) or (x, -1)."""
+    """Conjugate gradients with in-place BLAS updates; returns (x, iterations) or (x, -1).
+
+    ``precond`` None means the identity (the Jacobi-scaled system).
+    """
+    from scipy.linalg.blas import daxpy, ddot, dscal
+
     x = np.zeros_like(b) if x0 is None else np.array(x0, dtype=float)
     r = b - A @ x if x0 is not None else b.copy()
-    rr = float(np.dot(r, r))
-    tol2 = max(rtol * rtol * float(np.dot(b, b)), 1e-28 * rr, 1e-300)
+    rr = ddot(r, r)
+    tol2 = max(rtol * rtol * ddot(b, b), 1e-28 * rr, 1e-300)
     if rr <= tol2:
         return x, 0
     z = r if precond is None else precond(r)
     p = z.copy()
-    rz = rr if precond is None else float(np.dot(r, z))
+    rz = rr if precond is None else ddot(r, z)
     for k in range(1, maxiter + 1):
         q = A @ p
-        alpha = rz / float(np.dot(p, q))
-        x += alpha * p
-        r -= alpha * q
-        rr = float(np.dot(r, r))
+        alpha = rz / ddot(p, q)
+        x = daxpy(p, x, a=alpha)
+        r = daxpy(q, r, a=-alpha)
+        rr = ddot(r, r)
         if rr <= tol2:
             return x, k
         if precond is None:
-            rz, rz_old = rr, rz
+            z, rz, rz_old = r, rr, rz
         else:
             z = precond(r)
-            rz, rz_old = float(np.dot(r, z)), rz
-        p *= rz / rz_old
-        p += z
+            rz, rz_old = ddot(r, z), rz
+        p = daxpy(z, dscal(rz / rz_old, p))
     return x, -1
 
 
