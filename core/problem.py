@@ -10,7 +10,6 @@ else in SI units.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Optional, Union
 
 import numpy as np
 
@@ -42,8 +41,8 @@ class Material:
 
     density: float
     specific_heat: float
-    conductivity: Union[float, np.ndarray]
-    source: Optional[object] = None
+    conductivity: float | np.ndarray
+    source: object | None = None
     label: str = ""
 
     @property
@@ -70,9 +69,9 @@ class Boundary:
     """
 
     kind: str = "insulated"
-    value: Optional[object] = None
+    value: object | None = None
     h: float = 0.0
-    ambient: Optional[object] = None
+    ambient: object | None = None
 
 
 @dataclass
@@ -90,7 +89,7 @@ class Probe:
 
     name: str
     point: np.ndarray
-    threshold: Optional[float] = None
+    threshold: float | None = None
 
 
 @dataclass
@@ -124,7 +123,7 @@ class TimeSettings:
     step: float
     theta: float = 1.0
     mass: str = "consistent"
-    start_steps: Optional[int] = None
+    start_steps: int | None = None
     solver: str = "auto"
     output_times: tuple = ()
 
@@ -149,4 +148,4 @@ class Problem:
     mesh: Mesh
     materials: dict
     boundaries: dict = field(default_factory=dict)
-    initial: Union[float, dict, np.ndarray] = 20.0
+    initial: float | dict | np.ndarray = 20.0

@@ -16,8 +16,6 @@ from heatsoak.core.generate import box_mesh
 from heatsoak.core.mesh import TET_EDGES
 from heatsoak.core.meshread import build_mesh
 from heatsoak.core.topology import signed_volumes
-
-skfem = pytest.importorskip("skfem")
 from skfem import Basis, BilinearForm, ElementTetP1, ElementTetP2, FacetBasis, LinearForm, MeshTet
 from skfem.helpers import dot, grad, mul
 

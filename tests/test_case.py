@@ -91,7 +91,8 @@ BAD = {
     "tensor-asymmetric": (_set(["material", "right", "conductivity"], [[1, 2, 0], [0, 1, 0], [0, 0, 1]]),
                           "material.right.conductivity: [[1, 2, 0]"),
     "tensor-indefinite": (_set(["material", "right", "conductivity"], [[1, 2, 0], [2, 1, 0], [0, 0, 1]]),
-                          "material.right.conductivity: [[1, 2, 0], [2, 1, 0], [0, 0, 1]] is not allowed; a conductivity tensor must be positive definite"),
+                          "material.right.conductivity: [[1, 2, 0], [2, 1, 0], [0, 0, 1]] is not allowed; "
+                          "a conductivity tensor must be positive definite"),
     "no-material": (_set(["material", "*"], _DELETE), "material: no material for regions ['left']"),
     "initial-missing": (_set(["initial", "temperature"], _DELETE), "initial.temperature: missing"),
     "theta": (_set(["time", "theta"], 1.5), "time.theta: 1.5 is not allowed; must be <= 1"),
