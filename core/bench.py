@@ -56,7 +56,7 @@ def measure_size(name: str, steps: int) -> list:
     """All phases of one size but the whole runs; one record per Fourier number (see the module doc)."""
     n = SIZES[name]
     mesh = ph.bench_mesh(n)
-    reps = 5 if n <= 40 else 2
+    reps = 9 if n <= 20 else (5 if n <= 40 else 2)
     asm = ph.assembly(mesh, reps)
     skfem = ph.skfem_assembly(mesh, reps=3 if n <= 40 else 1)
     skip = ("direct",) if factor_memory_gb(mesh.n_nodes) > COMPARE_DIRECT_GB else ()
