@@ -153,20 +153,31 @@ def test_auto_takes_the_direct_solver_for_a_small_system_and_says_why():
     assert "2000 unknowns" in reason and "direct" in reason
 
 
-def test_auto_takes_a_krylov_solver_when_the_factor_would_not_fit():
+def test_auto_takes_a_krylov_solver_when_the_factor_would_not_fit(monkeypatch):
+    monkeypatch.setattr(linsolve, "cholmod_available", lambda: True)  # the cost model of the CHOLMOD backend
     name, reason = choose_solver(270_000, "auto", ratio=300.0, steps=1000, budget_gb=0.5)
     assert name in ("cg-jacobi", "cg-amg")
     assert "direct left out" in reason
     assert choose_solver(270_000, "auto", ratio=300.0, steps=1000, budget_gb=100.0)[0] == "direct"
 
 
-def test_auto_takes_jacobi_for_short_steps_and_not_for_long_ones_on_a_large_mesh():
+def test_auto_takes_jacobi_for_short_steps_and_not_for_long_ones_on_a_large_mesh(monkeypatch):
+    monkeypatch.setattr(linsolve, "cholmod_available", lambda: True)  # the cost model of the CHOLMOD backend
     short = estimate_costs(270_000, 15 * 270_000, 15.0, 1000, budget_gb=100.0)
     long = estimate_costs(270_000, 15 * 270_000, 15.0 * 100, 1000, budget_gb=100.0)
     assert min(short, key=short.get) == "cg-jacobi"
     assert min(long, key=long.get) == "direct"
     no_room = estimate_costs(270_000, 15 * 270_000, 15.0 * 100, 1000, budget_gb=0.0)
     assert min(no_room, key=no_room.get) == "cg-amg"
+
+
+def test_without_cholmod_the_slower_superlu_factor_loses_to_krylov_earlier(monkeypatch):
+    monkeypatch.setattr(linsolve, "cholmod_available", lambda: True)
+    with_cholmod = estimate_costs(270_000, 15 * 270_000, 1500.0, 1000, budget_gb=100.0)
+    monkeypatch.setattr(linsolve, "cholmod_available", lambda: False)
+    without = estimate_costs(270_000, 15 * 270_000, 1500.0, 1000, budget_gb=100.0)
+    assert without["direct"] > with_cholmod["direct"]
+    assert without["cg-jacobi"] == with_cholmod["cg-jacobi"]
 
 
 def test_a_factor_of_a_3d_mesh_grows_like_n_to_the_four_thirds():
