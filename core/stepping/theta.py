@@ -207,9 +207,6 @@ class ThetaMethod(Integrator):
         return s
 
     # -- one step ------------------------------------------------------------
-    def _mff(self, x):
-        return self._Mff * x if self.ops.lumped else self._Mff @ x
-
     def _advance(self, t: float, t_new: float, T: np.ndarray) -> np.ndarray:
         ops, f, p = self.ops, self.ops.free, self.ops.fixed
         dt = t_new - t
