@@ -8,7 +8,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .case import Case, check_case, load_case
+from .case import Case, check_case, load_case, stability_problem
 from .errors import CaseError
 from .output import ResultFiles
 from .probes import ProbeSet
@@ -189,6 +189,10 @@ def cmd_check(args) -> int:
         for problem in exc.problems:
             print(problem, file=sys.stderr)
         print(f"{len(exc.problems)} problem(s) in {args.case}", file=sys.stderr)
+        return 2
+    unstable = stability_problem(case.problem, case.time)
+    if unstable:
+        print(f"{case.path.name}: time.step: {unstable}\n1 problem(s) in {args.case}", file=sys.stderr)
         return 2
     print(f"ok: {args.case}")
     print("\n".join(describe_case(case)))
