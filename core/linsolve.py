@@ -140,7 +140,7 @@ class CGSolver(LinearSolver):
     ----------
     A : SPD sparse matrix
     preconditioner : "jacobi" (diagonal scaling) or "amg" (smoothed
-        aggregation, pyamg, one V-cycle per iteration)
+        aggregation, one V-cycle per iteration, see :mod:`heatsoak.core.amg`)
     rtol : float
     maxiter : int
     """
@@ -159,11 +159,12 @@ class CGSolver(LinearSolver):
             self.scale = s
         elif preconditioner == "amg":
             try:
-                import pyamg
+                import pyamg  # noqa: F401
             except ImportError:
                 raise InputError("solver 'cg-amg' needs pyamg: pip install 'heatsoak[fast]'") from None
-            ml = pyamg.smoothed_aggregation_solver(A, symmetry="symmetric", strength="symmetric")
-            self._precond = ml.aspreconditioner(cycle="V").matvec
+            from .amg import AmgPreconditioner
+
+            self._precond = AmgPreconditioner(A)
         else:
             raise InputError(f"preconditioner must be 'jacobi' or 'amg', got {preconditioner!r}")
         super().__init__(A)
@@ -239,6 +240,13 @@ def stiffness_ratio(K_diag: np.ndarray, M_diag: np.ndarray, dt: float, theta: fl
     return float(theta * dt * np.median(K_diag / M_diag))
 
 
+#: Near ties (estimates within NEAR_TIE of each other) go by the size of the factor: above
+#: SMALL_FACTOR_GB to the fastest Krylov solver, whose memory grows like the mesh (a factor's like
+#: n^(4/3)) and which has no factorisation to repeat when the step changes; below it to the
+#: direct solver, exact to round-off, so that the energy balance closes to round-off too.
+NEAR_TIE, SMALL_FACTOR_GB = 1.2, 0.1
+
+
 def choose_solver(n: int, name: str = "auto", *, nnz: int | None = None, ratio: float | None = None,
                   steps: int | None = None, budget_gb: float | None = None):
     """Pick a solver name for a system of ``n`` unknowns.
@@ -259,7 +267,10 @@ def choose_solver(n: int, name: str = "auto", *, nnz: int | None = None, ratio: 
         Memory a direct factor may take (default :func:`memory_budget_gb`).
 
     The choice is the solver of least estimated time (:func:`estimate_costs`)
-    among those that fit the memory budget.
+    among those that fit the memory budget; near ties between the direct and
+    the fastest Krylov solver (within :data:`NEAR_TIE`) go to the Krylov one
+    when the factor would hold more than :data:`SMALL_FACTOR_GB`, else to
+    the direct one.
 
     Returns
     -------
@@ -279,6 +290,15 @@ def choose_solver(n: int, name: str = "auto", *, nnz: int | None = None, ratio: 
     detail = ", ".join(f"{k} {v:.3g} s" for k, v in sorted(costs.items(), key=lambda kv: kv[1]))
     reason = (f"{n} unknowns, theta dt K_ii/M_ii = {ratio:.3g} (alpha dt/h^2 about {ratio / 15:.2g}), "
               f"{steps} steps per matrix: estimated {detail}")
+    if "direct" in costs:
+        krylov = min((k for k in costs if k != "direct"), key=costs.get)
+        factor_gb = factor_memory_gb(n)
+        if best == "direct" and factor_gb > SMALL_FACTOR_GB and costs[krylov] <= NEAR_TIE * costs["direct"]:
+            best = krylov
+            reason += f"; {krylov} taken: within {NEAR_TIE:g}x of direct, without its factor of about {factor_gb:.2g} GB"
+        elif best != "direct" and factor_gb <= SMALL_FACTOR_GB and costs["direct"] <= NEAR_TIE * costs[best]:
+            best = "direct"
+            reason += f"; direct taken: within {NEAR_TIE:g}x of {krylov}, exact to round-off, small factor"
     if "direct" not in costs:
         budget = memory_budget_gb() if budget_gb is None else budget_gb
         reason += f"; direct left out: its factor would need about {factor_memory_gb(n):.1f} GB > {budget:.1f} GB"
@@ -306,34 +326,49 @@ def factor_memory_gb(n: int) -> float:
     return chol if cholmod_available() else 4.0 * chol
 
 
-def estimate_costs(n: int, nnz: int, ratio: float, steps: int, budget_gb: float | None = None) -> dict:
-    """Estimated wall time [s] of ``steps`` solves, setup included, for each solver.
+def krylov_iterations(ratio: float, n: int) -> dict:
+    """Estimated mean iterations per step of each Krylov solver at ``RTOL``.
 
-    Power laws fitted to ``heatsoak bench`` on a two-core machine (unit cubes
-    of 1.3 k to 275 k nodes, alpha dt / h^2 = 1 and 20); only their ratios
-    matter for the choice. Krylov iteration counts: Jacobi-CG about
-    8 + 5.75 sqrt(1 + q), smoothed-aggregation CG about 6 + 1.7 ln(q / 15)
-    for q = :func:`stiffness_ratio` >= 15. The direct solver is left out when
-    its factor would need more than ``budget_gb`` (default :func:`memory_budget_gb`).
+    Fitted to ``heatsoak bench`` cubes (2 k to 275 k nodes) with the
+    extrapolated warm start: Jacobi-CG about 4 + 5.1 sqrt(1 + q), bounded by
+    3.5 n^(1/3) (the mesh's own conditioning); multigrid-CG about
+    4.3 + 1.3 ln(1 + q), at most 11; q = :func:`stiffness_ratio`.
     """
     q = max(float(ratio), 0.0)
     digits = -math.log10(RTOL) / 10.0
-    it_jacobi = 8.0 + 5.75 * math.sqrt(1.0 + q) * digits
-    it_amg = (6.1 + 1.7 * math.log(max(q, 15.0) / 15.0)) * digits
-    # mat-vec bound iterations; slower per entry once the matrix leaves the cache
-    t_jacobi = 6e-5 + 7e-10 * nnz * max(1.0, math.sqrt(nnz / 1.5e6))
-    t_amg = 3e-4 + 1.4e-8 * nnz
+    return {
+        "cg-jacobi": digits * min(4.0 + 5.1 * math.sqrt(1.0 + q), 3.5 * max(n, 1) ** (1.0 / 3.0)),
+        "cg-amg": digits * min(4.3 + 1.3 * math.log1p(q), 11.0),
+    }
+
+
+def estimate_costs(n: int, nnz: int, ratio: float, steps: int, budget_gb: float | None = None) -> dict:
+    """Estimated wall time [s] of ``steps`` steps, solver setup included, for each solver.
+
+    Power laws fitted to ``heatsoak bench`` on a two-core machine (unit cubes
+    of 2 k to 275 k nodes, alpha dt / h^2 = 0.2 to 100); only their ratios
+    matter for the choice. A step costs its solve plus about 0.3 ms + 40 ns
+    per unknown of right-hand side and bookkeeping; a Jacobi-CG iteration
+    about 0.85 ns per stored entry (more once the matrix leaves the cache), a
+    multigrid-CG iteration 0.15 ms + 4.3 ns per entry; iteration counts from
+    :func:`krylov_iterations`. The direct solver is left out when its factor
+    would need more than ``budget_gb`` (default :func:`memory_budget_gb`).
+    """
+    its = krylov_iterations(ratio, n)
+    overhead = 3e-4 + 4e-8 * n
+    t_jacobi = 2.5e-5 + 8.5e-10 * nnz * max(1.0, math.sqrt(nnz / 1.5e6))
+    t_amg = 1.5e-4 + 4.3e-9 * nnz
     costs = {
-        "cg-jacobi": steps * it_jacobi * t_jacobi,
-        "cg-amg": 0.01 + 3e-7 * nnz + steps * it_amg * t_amg,
+        "cg-jacobi": steps * (overhead + its["cg-jacobi"] * t_jacobi),
+        "cg-amg": 0.008 + 3e-7 * nnz + steps * (overhead + its["cg-amg"] * t_amg),
     }
     budget = memory_budget_gb() if budget_gb is None else budget_gb
     if factor_memory_gb(n) <= budget:
         if cholmod_available():
-            factor, solve = 0.005 + 1.3e-8 * n**1.7, 1e-4 + 6.1e-9 * n**1.4
+            factor, solve = 0.005 + 6.2e-8 * n**1.55, 3.8e-8 * n**1.25
         else:
-            factor, solve = 0.005 + 6.5e-9 * n**2.0, 1e-4 + 3.5 * 6.1e-9 * n**1.4
-        costs["direct"] = factor + steps * solve
+            factor, solve = 0.005 + 6.5e-9 * n**2.0, 3.5 * 3.8e-8 * n**1.25
+        costs["direct"] = factor + steps * (overhead + solve)
     return costs
 
 

@@ -74,6 +74,26 @@ def _matvec(A: np.ndarray, x: np.ndarray) -> np.ndarray:
     return np.einsum("ij,j->i", A, x)
 
 
+def warm_start(rates: list, t: float, dt: float) -> np.ndarray | None:
+    """Initial guess for the increment of the step from t to t + dt [K], shape (free nodes,).
+
+    ``rates`` holds up to two (mid-step time [s], increment / step [K/s]) pairs
+    of the steps just taken. With two, the rate is extrapolated linearly to
+    this step's middle (an error of order dt^2 where the field evolves
+    smoothly, against order dt for the last increment alone); with one, the
+    last increment is scaled to this step's length; with none there is no
+    guess. Only the iteration count of a Krylov solver depends on it.
+    """
+    if not rates:
+        return None
+    m1, r1 = rates[-1]
+    if len(rates) == 1:
+        return r1 * dt
+    m0, r0 = rates[-2]
+    w = (t + 0.5 * dt - m1) / (m1 - m0)
+    return ((1.0 + w) * r1 - w * r0) * dt
+
+
 class ThetaMethod(Integrator):
     """Theta-method time stepper of a :class:`Problem`.
 
@@ -120,6 +140,8 @@ class ThetaMethod(Integrator):
             start = 4 if 0.5 <= theta < 1.0 else 0
         self.start_steps = int(start)
         self._energy = dict(stored_J=0.0, boundary_in_J=0.0, source_in_J=0.0, dirichlet_in_J=0.0)
+        self._rates = []  # (mid-step time [s], free-node increment / step [K/s]) of the last two steps
+        self._jump_times = set(self.ops.jumps().tolist())
 
     # -- setup -------------------------------------------------------------
     def _choose_solver(self):
@@ -170,6 +192,7 @@ class ThetaMethod(Integrator):
         T = self.ops.initial.copy()
         T[self.ops.fixed] = self.ops.fixed_values(0.0)
         self._T0 = T.copy()
+        self._rates = []
         return T
 
     def times(self) -> np.ndarray:
@@ -224,10 +247,10 @@ class ThetaMethod(Integrator):
             if self._Mfp is not None:
                 b -= self._Mfp @ ((Tp1 - Tp0) / dt)
         solver = self._solver(dt, theta)
-        last = getattr(self, "_last_dTf", None)
-        # warm start: the last increment, scaled to this step's length
-        dTf = solver.solve(b, x0=None if last is None else last[0] * (dt / last[1]))
-        self._last_dTf = (dTf, dt)
+        if t in self._jump_times:  # rates before a jump say nothing of its slope after it
+            self._rates = self._rates[-1:]
+        dTf = solver.solve(b, x0=warm_start(self._rates, t, dt))
+        self._rates = [*self._rates[-1:], (t + 0.5 * dt, dTf / dt)]
         T_new = T.copy()
         T_new[f] = Tf + dTf
         T_new[p] = Tp1
