@@ -76,6 +76,25 @@ def safe_upload_name(name: str) -> str:
     return base
 
 
+def unwrap_upload(value, limit: int = MAX_UPLOAD_BYTES, hint: str = "") -> tuple[str, bytes] | None:
+    """(name, content) of the first file of a browser file-input value, None when it is empty.
+
+    Raises
+    ------
+    InputError
+        When the file is larger than ``limit`` bytes (checked on its declared size first, so an
+        oversized file is refused before its content is touched); ``hint`` ends the message.
+    """
+    if not value:
+        return None
+    upload = value[0] if isinstance(value, list) else value
+    name = str(upload.get("name", ""))
+    if int(upload.get("size", 0)) > limit:
+        raise InputError(f"upload {name!r}: {int(upload['size']) / 1e6:.1f} MB is over the limit of "
+                         f"{limit / 1e6:.0f} MB{hint}")
+    return name, bytes(upload["content"])
+
+
 def save_upload(folder, name: str, content: bytes, limit: int = MAX_UPLOAD_BYTES) -> Path:
     """Write an uploaded file into ``folder`` and return its path.
 

@@ -80,13 +80,10 @@ def register_choices(panel) -> None:
         """Store an uploaded file in the work folder and open it."""
         if not hs_upload:
             return
-        upload = hs_upload[0] if isinstance(hs_upload, list) else hs_upload
         state.hs_upload_error = ""
         try:
-            if int(upload.get("size", 0)) > files.MAX_UPLOAD_BYTES:
-                raise InputError(f"upload {upload.get('name')!r}: {int(upload['size']) / 1e6:.1f} MB is over the "
-                                 f"limit of {files.MAX_UPLOAD_BYTES / 1e6:.0f} MB; put large meshes in the data folder")
-            path = files.save_upload(panel.work_dir / "uploads", upload.get("name", ""), bytes(upload["content"]))
+            name, content = files.unwrap_upload(hs_upload, hint="; put large meshes in the data folder")
+            path = files.save_upload(panel.work_dir / "uploads", name, content)
         except InputError as exc:
             state.hs_upload_error = str(exc)
             return

@@ -14,7 +14,7 @@ from heatsoak.core.materials import LIBRARY, SOURCE_NOTE
 from heatsoak.core.meshread import UNITS
 from heatsoak.core.schedule import parse_schedule
 
-from . import plots
+from . import files, plots
 from .forms import KIND_UNITS, KINDS, FormError, case_from_forms, default_bc, issues_by_field, schedule_value
 from .scene import group_colour
 
@@ -84,13 +84,14 @@ def register_conditions(panel) -> None:
     @state.change("hs_table_upload")
     def on_table_upload(hs_table_upload, **_):
         """Put an uploaded CSV table into the table field (checked like pasted text)."""
-        if not hs_table_upload:
+        try:
+            upload = files.unwrap_upload(hs_table_upload, limit=1_000_000)
+        except InputError as exc:
+            state.hs_err = {**state.hs_err, f"boundary.{state.hs_group}.table": [str(exc)]}
             return
-        upload = hs_table_upload[0] if isinstance(hs_table_upload, list) else hs_table_upload
-        if int(upload.get("size", 0)) > 1_000_000:
-            state.hs_err = {**state.hs_err, f"boundary.{state.hs_group}.table": ["the CSV file is over 1 MB"]}
+        if upload is None:
             return
-        state.hs_e_table = bytes(upload["content"]).decode("utf-8-sig", errors="replace")
+        state.hs_e_table = upload[1].decode("utf-8-sig", errors="replace")
         state.hs_table_upload = None
 
 

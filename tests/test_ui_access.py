@@ -42,26 +42,25 @@ def stop(proc) -> None:
         proc.kill()
 
 
-def test_other_interfaces_get_a_generated_key_printed_with_the_address(tmp_path):
+def startup_text(tmp_path, *extra) -> tuple[int, str]:
+    """Port and the first lines a UI server started with ``extra`` prints."""
     log_path = tmp_path / "ui.log"
     with open(log_path, "w") as log:
-        port, proc = start_ui("--host", "0.0.0.0", log=log)
+        port, proc = start_ui(*extra, log=log)
         try:
-            text = first_lines(log_path, proc)
+            return port, first_lines(log_path, proc)
         finally:
             stop(proc)
+
+
+def test_other_interfaces_get_a_generated_key_printed_with_the_address(tmp_path):
+    port, text = startup_text(tmp_path, "--host", "0.0.0.0")
     assert f":{port}/?secret=" in text
     assert "access key is required" in text and "generated" in text
 
 
 def test_loopback_needs_no_key(tmp_path):
-    log_path = tmp_path / "ui.log"
-    with open(log_path, "w") as log:
-        port, proc = start_ui("--host", "127.0.0.1", log=log)
-        try:
-            text = first_lines(log_path, proc)
-        finally:
-            stop(proc)
+    port, text = startup_text(tmp_path, "--host", "127.0.0.1")
     assert f"http://127.0.0.1:{port}/ (this machine only)" in text and "secret" not in text
 
 

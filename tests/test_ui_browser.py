@@ -27,6 +27,7 @@ from uidriver import (
     launch_browser,
     open_section,
     select_group,
+    set_condition,
     settle,
     view_pixels,
     wait_for,
@@ -120,12 +121,7 @@ def read_probe_csv(path) -> dict:
 
 def test_ramp_run_animate_probe_and_export_match_the_cli(page, server, data_dir, shots, tmp_path):
     group = "base"
-    select_group(page, group)
-    choose(page, "#hs-kind", "Temperature (Dirichlet)")
-    page.locator("#hs-shape button", has_text="ramp").click()
-    settle(page)
-    for key, value in (("start", 22), ("end", 150), ("at", 0), ("over", 120)):
-        fill(page, f"#hs-ramp-{key}", value)
+    set_condition(page, group, "Temperature (Dirichlet)", "ramp", dict(start=22, end=150, at=0, over=120))
     open_section(page, "Start and time")
     fill(page, "#hs-end", 240)
     fill(page, "#hs-step", 20)
@@ -181,11 +177,7 @@ def test_ramp_run_animate_probe_and_export_match_the_cli(page, server, data_dir,
 
 
 def test_bad_table_is_marked_at_the_field_without_traceback(page, server, shots):
-    page.click("#hs-view-mode button:has-text('set-up')")
-    select_group(page, "base")
-    choose(page, "#hs-kind", "Temperature (Dirichlet)")
-    page.locator("#hs-shape button", has_text="table").click()
-    settle(page)
+    set_condition(page, "base", "Temperature (Dirichlet)", "table")
     fill(page, "#hs-table", "0, 20\n100, 50\n50, 80")
     message = page.locator(".hs-editor .v-messages__message", has_text="does not increase")
     message.wait_for(timeout=15_000)
@@ -219,13 +211,7 @@ def test_mesh_without_tetrahedra_gives_a_clear_message(page, server, shots):
 
 
 def test_what_if_runs_are_labelled_compared_and_differenced(page, server, shots):
-    page.click("#hs-view-mode button:has-text('set-up')")
-    select_group(page, "base")
-    choose(page, "#hs-kind", "Temperature (Dirichlet)")
-    page.locator("#hs-shape button", has_text="ramp").click()
-    settle(page)
-    for key, value in (("start", 22), ("end", 150), ("at", 0), ("over", 240)):
-        fill(page, f"#hs-ramp-{key}", value)
+    set_condition(page, "base", "Temperature (Dirichlet)", "ramp", dict(start=22, end=150, at=0, over=240))
     page.wait_for_selector("#hs-run:not([disabled])", timeout=15_000)
     page.click("#hs-run")
     wait_for(lambda: page.locator(".hs-run-row").count() >= 2, 90, what="a second run")

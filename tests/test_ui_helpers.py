@@ -138,6 +138,16 @@ def test_uploads_over_the_limit_or_of_other_types_are_refused(tmp_path):
     assert path == tmp_path / "weird_name.msh" and path.read_bytes() == b"data"
 
 
+def test_a_browser_file_value_is_unwrapped_and_its_declared_size_checked_first():
+    one = {"name": "a.csv", "size": 3, "content": b"1,2"}
+    assert files.unwrap_upload([one]) == ("a.csv", b"1,2")
+    assert files.unwrap_upload(one) == ("a.csv", b"1,2")
+    assert files.unwrap_upload(None) is None and files.unwrap_upload([]) is None
+    big = {"name": "big.msh", "size": 2_000_000, "content": None}  # content never read
+    with pytest.raises(InputError, match="'big.msh': 2.0 MB is over the limit of 1 MB; try elsewhere"):
+        files.unwrap_upload(big, limit=1_000_000, hint="; try elsewhere")
+
+
 # ------------------------------------------------------------ material library
 @pytest.mark.parametrize(
     "key, alpha_1e6",

@@ -120,6 +120,21 @@ def select_group(page, name: str) -> None:
     settle(page)
 
 
+def set_condition(page, group: str, kind: str, shape: str, values: dict | None = None) -> None:
+    """In the set-up view (switched to if results show), give ``group`` a condition of ``kind`` (its label) with schedule ``shape``
+    ("constant", "ramp", "table"), then fill the schedule fields named in ``values``
+    (ramp: start, end, at, over; they are filled as ``#hs-ramp-<name>``)."""
+    setup_view = page.locator("#hs-view-mode button:has-text('set-up')")
+    if setup_view.count():  # the view switch shows once there are results
+        setup_view.click()
+    select_group(page, group)
+    choose(page, "#hs-kind", kind)
+    page.locator("#hs-shape button", has_text=shape).click()
+    settle(page)
+    for key, value in (values or {}).items():
+        fill(page, f"#hs-{shape}-{key}", value)
+
+
 def open_section(page, title: str) -> None:
     """Expand a set-up section (expansion panel) by its title, if it is closed."""
     panel = page.locator(".hs-section", has_text=title).first
