@@ -11,7 +11,7 @@ Each size runs in a fresh process, so its memory is its own. Per size:
 * for two time steps, alpha dt / h^2 = 1 and 20 (backward Euler): what
   ``solver = "auto"`` picks; one full step against the bare solve inside it;
   every solver's estimated time for a run of ``--steps`` steps (setup +
-  steps x median step over the first 12 steps); the time of writing the
+  steps x median step over steps 7 to 24); the time of writing the
   field, as a fraction of a step; and, in a fresh process, a whole run of
   ``--steps`` steps with auto's solver (assembly included) writing the field
   every 50 steps (XDMF), with the run's peak resident memory (the process
@@ -181,7 +181,8 @@ def cmd_bench(args) -> int:
     if args.steps < 1:
         raise InputError(f"--steps must be a positive number of steps, got {args.steps}")
     print(f"heatsoak bench on {machine()}", flush=True)
-    print("Fo = alpha dt / h^2; * estimated run of the same steps, setup + steps x median of the first 12 steps;"
+    print(f"Fo = alpha dt / h^2; * estimated run of the same steps, setup + steps x median of steps "
+          f"{ph.PROBE_SKIP + 1} to {ph.PROBE_STEPS};"
           " runs include assembly and field output; peak MB: whole phase, process included", flush=True)
     records, where = [], machine()
     for name in sizes:
