@@ -240,11 +240,13 @@ def stiffness_ratio(K_diag: np.ndarray, M_diag: np.ndarray, dt: float, theta: fl
     return float(theta * dt * np.median(K_diag / M_diag))
 
 
-#: Near ties (estimates within NEAR_TIE of each other) go by the size of the factor: above
-#: SMALL_FACTOR_GB to the fastest Krylov solver, whose memory grows like the mesh (a factor's like
-#: n^(4/3)) and which has no factorisation to repeat when the step changes; below it to the
-#: direct solver, exact to round-off, so that the energy balance closes to round-off too.
+#: A Krylov solver within NEAR_TIE of the direct one is taken instead when the factor would hold
+#: more than SMALL_FACTOR_GB: its memory grows like the mesh (a factor's like n^(4/3)) and it has
+#: no factorisation to repeat when the step changes.
 NEAR_TIE, SMALL_FACTOR_GB = 1.2, 0.1
+#: When the direct solver's whole run is estimated under this [s], it is taken: exact to
+#: round-off (so is the energy balance), and no faster solver could save a noticeable time.
+QUICK_RUN_S = 1.0
 
 
 def choose_solver(n: int, name: str = "auto", *, nnz: int | None = None, ratio: float | None = None,
@@ -267,10 +269,11 @@ def choose_solver(n: int, name: str = "auto", *, nnz: int | None = None, ratio: 
         Memory a direct factor may take (default :func:`memory_budget_gb`).
 
     The choice is the solver of least estimated time (:func:`estimate_costs`)
-    among those that fit the memory budget; near ties between the direct and
-    the fastest Krylov solver (within :data:`NEAR_TIE`) go to the Krylov one
-    when the factor would hold more than :data:`SMALL_FACTOR_GB`, else to
-    the direct one.
+    among those that fit the memory budget, with two exceptions: the fastest
+    Krylov solver is taken over a faster direct one when it is within
+    :data:`NEAR_TIE` of it and the factor would hold more than
+    :data:`SMALL_FACTOR_GB`; the direct solver is taken when its whole run
+    is estimated under :data:`QUICK_RUN_S`.
 
     Returns
     -------
@@ -296,9 +299,9 @@ def choose_solver(n: int, name: str = "auto", *, nnz: int | None = None, ratio: 
         if best == "direct" and factor_gb > SMALL_FACTOR_GB and costs[krylov] <= NEAR_TIE * costs["direct"]:
             best = krylov
             reason += f"; {krylov} taken: within {NEAR_TIE:g}x of direct, without its factor of about {factor_gb:.2g} GB"
-        elif best != "direct" and factor_gb <= SMALL_FACTOR_GB and costs["direct"] <= NEAR_TIE * costs[best]:
+        elif best != "direct" and costs["direct"] < QUICK_RUN_S:
             best = "direct"
-            reason += f"; direct taken: within {NEAR_TIE:g}x of {krylov}, exact to round-off, small factor"
+            reason += f"; direct taken: under {QUICK_RUN_S:g} s either way and exact to round-off"
     if "direct" not in costs:
         budget = memory_budget_gb() if budget_gb is None else budget_gb
         reason += f"; direct left out: its factor would need about {factor_memory_gb(n):.1f} GB > {budget:.1f} GB"

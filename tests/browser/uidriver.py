@@ -121,8 +121,8 @@ def select_group(page, name: str) -> None:
 
 
 def set_condition(page, group: str, kind: str, shape: str, values: dict | None = None) -> None:
-    """In the set-up view (switched to if results show), give ``group`` a condition of ``kind`` (its label) with schedule ``shape``
-    ("constant", "ramp", "table"), then fill the schedule fields named in ``values``
+    """In the set-up view (switched to if results show), give ``group`` a condition of ``kind``
+    (its label) with schedule ``shape`` ("constant", "ramp", "table"), then fill the schedule fields named in ``values``
     (ramp: start, end, at, over; they are filled as ``#hs-ramp-<name>``)."""
     setup_view = page.locator("#hs-view-mode button:has-text('set-up')")
     if setup_view.count():  # the view switch shows once there are results
