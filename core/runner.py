@@ -205,6 +205,9 @@ def _report(summary: dict, out_dir: Path) -> list:
     t = summary["temperature"]
     lines = [(f"{summary['status']}: {summary['steps']} steps to t = {summary['end_time']:g} s "
               f"in {summary['wall_time_s']:.1f} s; results in {out_dir}")]
+    solver = summary.get("solver") or {}
+    if solver.get("solver"):
+        lines.append(f"solver {solver['solver']}: {solver['reason']}")
     if t["min"] is not None:
         lines.append(f"temperature from {t['min']['value']:.4g} to {t['max']['value']:.4g} degC "
                      f"(max at t = {t['max']['when']:g} s)")

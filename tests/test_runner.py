@@ -38,7 +38,9 @@ def test_run_writes_probes_regions_field_and_summary(tmp_path, capsys):
     path = make_case(tmp_path)
     assert main(["run", str(path), "--quiet"]) == 0
     out = tmp_path / "case-results"
-    assert "complete: 12 steps to t = 120 s" in capsys.readouterr().out
+    printed = capsys.readouterr().out
+    assert "complete: 12 steps to t = 120 s" in printed
+    assert "\nsolver " in printed and "unknowns" in printed  # auto's choice and its reason
     rows = _read_csv(out / "probes.csv")
     assert rows[0] == ["time", "core", "far"] and len(rows) == 14
     regions = _read_csv(out / "regions.csv")
