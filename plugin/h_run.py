@@ -58,7 +58,7 @@ def register(panel) -> None:
     """Defaults and handlers of the run bar."""
     state, ctrl = panel.state, panel.ctrl
     state.update({"hs_running": False, "hs_progress": 0.0, "hs_progress_text": "", "hs_run_error": "",
-                  "hs_run_message": ""})
+                  "hs_solver_reason": ""})
 
     @ctrl.set("hs_run")
     def start_run():
@@ -76,7 +76,7 @@ def register(panel) -> None:
         case = case_from_data(data, panel.case_dir, mesh=panel.mesh)
         panel.job = RunJob(case, out_dir)
         state.update({"hs_running": True, "hs_progress": 0.0, "hs_progress_text": "starting...",
-                      "hs_run_error": "", "hs_run_message": ""})
+                      "hs_run_error": "", "hs_solver_reason": ""})
         panel.job.data = data
         panel.job.thread.start()
         asyncio.ensure_future(watch(panel))
@@ -120,8 +120,10 @@ def finish(panel, job) -> None:
         return
     run = panel.runs.add(job.data, job.out_dir, job.summary, mesh=job.case.mesh)
     state.hs_progress = 100.0 if run.status == "complete" else state.hs_progress
+    solver = run.summary.get("solver") or {}
     state.hs_progress_text = (f"{run.status}: {run.summary.get('steps', 0)} steps to t = "
-                              f"{run.summary.get('end_time', 0):g} s in {run.summary.get('wall_time_s', 0):.1f} s")
-    state.hs_run_message = f"Run {run.id} {run.status}: {run.label}"
+                              f"{run.summary.get('end_time', 0):g} s in {run.summary.get('wall_time_s', 0):.1f} s"
+                              + (f" · solver {solver['solver']}" if solver.get("solver") else ""))
+    state.hs_solver_reason = solver.get("reason", "")
     state.hs_last_run_time = time.time()
     h_results.runs_changed(panel, show=run.id)

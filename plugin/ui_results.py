@@ -21,7 +21,10 @@ def run_bar(panel) -> None:
         with html.Div(classes="flex-grow-1", style="min-width: 0"):
             v3.VProgressLinear(v_if="hs_running || hs_progress_text", model_value=("hs_progress",), height=6,
                                rounded=True, color="#2f5d50", bg_color="#cfd8d3", id="hs-progress")
-            html.Div("{{ hs_progress_text }}", classes="text-caption", id="hs-progress-text")
+            with html.Div(classes="text-caption d-flex ga-2 align-center"):
+                html.Span("{{ hs_progress_text }}", id="hs-progress-text")
+                v3.VIcon("mdi-information-outline", size="x-small", v_if="hs_solver_reason && !hs_running",
+                         title=("`why this solver: ${hs_solver_reason}`",), id="hs-solver-why")
             html.Div("{{ hs_run_reason }}", v_if="hs_run_reason && !hs_running", classes="text-caption hs-reason",
                      id="hs-run-reason")
             html.Div("{{ hs_run_error }}", v_if="hs_run_error", classes="text-caption text-error", id="hs-run-error")

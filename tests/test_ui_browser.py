@@ -138,6 +138,8 @@ def test_ramp_run_animate_probe_and_export_match_the_cli(page, server, data_dir,
     page.click("#hs-run")
     wait_for(lambda: "complete" in page.inner_text("#hs-progress-text"), 90, what="the run to complete")
     page.wait_for_selector("#hs-player")
+    assert "solver direct" in page.inner_text("#hs-progress-text")  # a small mesh: the exact solver
+    assert "unknowns" in page.locator("#hs-solver-why").get_attribute("title")
     assert page.locator("#hs-progress").get_attribute("aria-valuenow") in ("100", "100.0")
     page.wait_for_selector("#hs-frame-time >> text=frame 1 of")
     time.sleep(1.0)
