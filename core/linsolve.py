@@ -66,6 +66,15 @@ def cholmod_available() -> bool:
     return True
 
 
+def amg_available() -> bool:
+    """True when pyamg can be imported (the ``fast`` extra): ``cg-amg`` needs it."""
+    try:
+        import pyamg  # noqa: F401
+    except ImportError:
+        return False
+    return True
+
+
 class DirectSolver(LinearSolver):
     """Sparse Cholesky (CHOLMOD via scikit-sparse) when installed, else SuperLU.
 
@@ -359,16 +368,16 @@ def estimate_costs(n: int, nnz: int, ratio: float, steps: int, budget_gb: float 
     about 0.85 ns per stored entry (more once the matrix leaves the cache), a
     multigrid-CG iteration 0.15 ms + 4.3 ns per entry; iteration counts from
     :func:`krylov_iterations`. The direct solver is left out when its factor
-    would need more than ``budget_gb`` (default :func:`memory_budget_gb`).
+    would need more than ``budget_gb`` (default :func:`memory_budget_gb`);
+    multigrid when pyamg is not installed.
     """
     its = krylov_iterations(ratio, n, nnz / max(n, 1))
     overhead = 3e-4 + 4e-8 * n
     t_jacobi = 2.5e-5 + 8.5e-10 * nnz * max(1.0, math.sqrt(nnz / 1.5e6))
     t_amg = 1.5e-4 + 4.3e-9 * nnz
-    costs = {
-        "cg-jacobi": steps * (overhead + its["cg-jacobi"] * t_jacobi),
-        "cg-amg": 0.008 + 3e-7 * nnz + steps * (overhead + its["cg-amg"] * t_amg),
-    }
+    costs = {"cg-jacobi": steps * (overhead + its["cg-jacobi"] * t_jacobi)}
+    if amg_available():
+        costs["cg-amg"] = 0.008 + 3e-7 * nnz + steps * (overhead + its["cg-amg"] * t_amg)
     budget = memory_budget_gb() if budget_gb is None else budget_gb
     if factor_memory_gb(n) <= budget:
         if cholmod_available():

@@ -289,3 +289,11 @@ def test_multigrid_iterations_are_estimated_higher_for_quadratic_cells():
     quadratic = linsolve.krylov_iterations(300.0, 35_000, per_row=27.0)
     assert quadratic["cg-amg"] == pytest.approx(linear["cg-amg"] * (27 / 14) ** 0.8)
     assert quadratic["cg-jacobi"] == linear["cg-jacobi"]
+
+
+def test_auto_never_picks_multigrid_without_pyamg(monkeypatch):
+    monkeypatch.setattr(linsolve, "cholmod_available", lambda: True)
+    monkeypatch.setattr(linsolve, "amg_available", lambda: False)
+    costs = estimate_costs(270_000, 15 * 270_000, 1500.0, 1000, budget_gb=0.0)
+    assert "cg-amg" not in costs
+    assert choose_solver(270_000, "auto", ratio=1500.0, steps=1000, budget_gb=0.0)[0] == "cg-jacobi"
