@@ -8,11 +8,11 @@ Points the nearest candidates miss are searched among all cells whose
 centroid lies within the largest centroid-to-vertex distance of the mesh,
 which must include the containing cell.
 
-Quadratic (tetra10) cells are treated as straight-sided for locating and for
-the reference coordinates: the barycentric coordinates come from the four
-vertices and the ten quadratic shape functions are evaluated there. This is
-exact for straight-sided cells; for curved cells the error is of the order of
-the mid-node offset.
+Quadratic (tetra10) cells are located as straight-sided (by their four
+vertices); the reference coordinates of the point are then refined by Newton
+iterations on the cell's isoparametric map, so that curved cells interpolate
+at the right place (a linear field is reproduced exactly on any cell, the
+isoparametric property, common practice, no source).
 """
 
 from __future__ import annotations
@@ -38,6 +38,36 @@ def _barycentric(mesh: Mesh, cells: np.ndarray, pts: np.ndarray) -> np.ndarray:
     lam = np.einsum("mij,mj->mi", g, d)
     lam[:, 0] += 1.0
     return lam
+
+
+def isoparametric_xi(nodes: np.ndarray, pts: np.ndarray, xi: np.ndarray, iterations: int = 8) -> np.ndarray:
+    """Reference coordinates of points in quadratic cells, by Newton iterations on the cell map.
+
+    Parameters
+    ----------
+    nodes : (k, 10, 3) node coordinates of each point's cell [m]
+    pts : (k, 3) the points [m]
+    xi : (k, 3) starting reference coordinates (those of the straight-sided cell)
+
+    Returns
+    -------
+    (k, 3) reference coordinates with x(xi) = pts to round-off where the map is
+    invertible there; a point whose iteration does not settle keeps its start.
+    """
+    start = xi = np.array(xi, dtype=float)
+    size = np.linalg.norm(nodes[:, 1] - nodes[:, 0], axis=1)[:, None]
+    for _ in range(iterations):
+        N, dN = tet_basis(2, xi)
+        residual = np.einsum("ka,kad->kd", N, nodes) - pts
+        J = np.einsum("kad,kae->kde", nodes, dN)  # dx_d / dxi_e
+        try:
+            xi = xi - np.linalg.solve(J, residual[..., None])[..., 0]
+        except np.linalg.LinAlgError:  # a degenerate cell map: keep the straight-sided coordinates
+            return start
+    N, _ = tet_basis(2, xi)
+    miss = np.linalg.norm(np.einsum("ka,kad->kd", N, nodes) - pts, axis=1)[:, None]
+    settled = np.isfinite(xi).all(axis=1, keepdims=True) & (miss <= 1e-9 * size)
+    return np.where(settled, xi, start)
 
 
 def locate(mesh: Mesh, points, tol: float = TOL):
@@ -151,7 +181,10 @@ class ProbeSet:
             err.outside = list(zip(out.tolist(), dist.tolist()))
             raise err
         self.nodes = mesh.cells[self.cells] if len(self.points) else np.zeros((0, mesh.cells.shape[1]), np.int64)
-        self.weights = tet_basis(mesh.order, lam[:, 1:])[0] if len(self.points) else np.zeros(self.nodes.shape)
+        xi = lam[:, 1:]
+        if mesh.order == 2 and len(self.points):
+            xi = isoparametric_xi(mesh.points[self.nodes], self.points, xi)
+        self.weights = tet_basis(mesh.order, xi)[0] if len(self.points) else np.zeros(self.nodes.shape)
 
     def __len__(self) -> int:
         return len(self.names)

@@ -46,6 +46,27 @@ def test_p2_interpolation_of_a_quadratic_field_is_exact(pts):
     np.testing.assert_allclose(probes.values(_quadratic(mesh.points)), _quadratic(pts), atol=1e-12)
 
 
+def test_p2_probes_in_curved_cells_reproduce_a_linear_field_exactly():
+    # Isoparametric cells reproduce linear fields exactly (common practice, no source); taking
+    # the curved cell as straight-sided would miss by about the mid-node offset times the gradient.
+    from heatsoak.core.elements import tet_basis
+
+    mesh = box_mesh((3, 3, 3), size=(1.0, 1.0, 1.0), order=2)
+    rng = np.random.default_rng(4)
+    mid = np.unique(mesh.cells[:, 4:])
+    mesh.points[mid] += 0.04 * rng.uniform(-1, 1, (mid.size, 3))  # curve every edge (h = 1/3)
+    cells = rng.choice(mesh.n_cells, 12, replace=False)
+    xi = 0.25 + 0.06 * rng.uniform(-1, 1, (12, 3))  # well inside each cell
+    N, _ = tet_basis(2, xi)
+    pts = np.einsum("ka,kad->kd", N, mesh.points[mesh.cells[cells]])
+    probes = ProbeSet(mesh, pts, [f"p{i}" for i in range(len(pts))])
+    np.testing.assert_allclose(probes.values(_linear(mesh.points)), _linear(pts), rtol=0, atol=1e-10)
+    # the straight-sided reading of the same cells is visibly off
+    straight = np.einsum("ka,ka->k", tet_basis(2, locate(mesh, pts)[1][:, 1:])[0],
+                         _linear(mesh.points)[mesh.cells[probes.cells]])
+    assert np.abs(straight - _linear(pts)).max() > 1e-3
+
+
 def test_points_are_found_on_a_strongly_graded_mesh(pts):
     grade = [lambda s: s**4, lambda s: s**3, None]
     mesh = box_mesh((8, 6, 3), size=(2.0, 1.0, 0.5), grading=grade)
