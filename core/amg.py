@@ -79,6 +79,7 @@ class AmgPreconditioner:
         self.operator_complexity = float(ml.operator_complexity())
 
     def __call__(self, r: np.ndarray) -> np.ndarray:
+        """The cycle applied to a residual ``r`` (n,): an approximation (n,) of A^-1 r."""
         return self._cycle(0, np.ascontiguousarray(r, dtype=float))
 
     def _cycle(self, k: int, b: np.ndarray) -> np.ndarray:
