@@ -17,6 +17,7 @@ from pathlib import Path
 import numpy as np
 from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
+from scipy.spatial import cKDTree
 
 from .errors import InputError, MeshError
 from .mesh import TET_EDGES, Mesh
@@ -31,6 +32,9 @@ UNITS = {"m": 1.0, "cm": 0.01, "mm": 0.001, "in": 0.0254}
 #: (an error), below NEAR_ZERO it is reported.
 ZERO_VOLUME = 1e-12
 NEAR_ZERO_VOLUME = 1e-9
+
+#: Nodes closer than this, relative to the bounding-box diagonal, coincide.
+COINCIDENT = 1e-9
 
 #: Largest distance of a mid-edge node from its edge's midpoint, per edge length.
 MID_NODE_OFFSET = 0.25
@@ -175,6 +179,7 @@ def build_mesh(
         raise MeshError(
             f"{bad.sum()} nodes of {where} have NaN or infinite coordinates (first: node {np.argmax(bad)})"
         )
+    _check_solid(points, where)
     cells = _fix_volumes(points, cells, original, where, notes)
     if cells.shape[1] == 10:
         _check_mid_nodes(points, cells, where)
@@ -200,6 +205,7 @@ def build_mesh(
             grouping = None
     if grouping is None:
         grouping = feature_groups(points, faces, feature_angle)
+    notes += _unmerged(points, faces)
     notes += _bodies(cells, len(points))
     return Mesh(
         points=points,
@@ -264,6 +270,44 @@ def _drop_unused(points, cells, tagged, notes):
         tagged = {k: new[np.asarray(v)] for k, v in tagged.items()}
         tagged = {k: v[(v >= 0).all(axis=1)] for k, v in tagged.items()}
     return points[used], new[cells], tagged
+
+
+def _check_solid(points, where):
+    """MeshError when every node lies in one plane (a 2-D mesh, or points given as x, y only)."""
+    centred = points - points.mean(axis=0)
+    sv = np.linalg.svd(centred.T @ centred, compute_uv=False)
+    if sv[2] <= 1e-24 * sv[0]:
+        flat = [a for a, e in zip("xyz", np.ptp(points, axis=0)) if e == 0]
+        which = f" (every {flat[0]} is {points[0, 'xyz'.index(flat[0])]:g})" if flat else ""
+        raise MeshError(
+            f"every node of {where} lies in one plane{which}: a 2-D mesh? tetrahedra need x, y and z coordinates"
+        )
+
+
+def _unmerged(points, faces):
+    """A warning when boundary faces lie on top of each other on coincident, unmerged nodes.
+
+    Such faces (an exported crack, or parts meshed apart and not merged) insulate
+    the two sides from each other, which is rarely what the user meant.
+    """
+    nodes = np.unique(faces[:, :3])
+    tol = COINCIDENT * float(np.linalg.norm(np.ptp(points, axis=0)))
+    pairs = cKDTree(points[nodes]).query_pairs(tol, output_type="ndarray")
+    if len(pairs) == 0:
+        return []
+    graph = coo_matrix((np.ones(len(pairs)), (pairs[:, 0], pairs[:, 1])), shape=(len(nodes),) * 2)
+    rep = np.arange(len(points))
+    rep[nodes] = nodes[connected_components(graph, directed=False)[1]]
+    _, count, _ = pair_rows(np.sort(rep[faces[:, :3]], axis=1))
+    stacked = np.flatnonzero(count > 1)
+    if len(stacked) == 0:
+        return []
+    x, y, z = points[faces[stacked[0], :3]].mean(axis=0)
+    return [
+        f"{len(stacked)} boundary faces lie on top of other boundary faces on coincident but unmerged nodes "
+        f"(first near ({x:.4g}, {y:.4g}, {z:.4g}) m): no heat flows across them, as across a crack; "
+        "merge duplicate nodes in the mesher if the parts should conduct"
+    ]
 
 
 def _fix_volumes(points, cells, original, where, notes):

@@ -3,8 +3,9 @@
 Volume regions and surface groups come from the tags a file carries, most
 trusted first: integer cell arrays (``gmsh:physical`` with names from
 ``field_data``, ``medit:ref``, ``CellEntityIds``, then any other integer array
-with few distinct values), else named cell sets (Abaqus element sets, ...).
-Tags without a name are called "region-<tag>" / "group-<tag>".
+with few distinct values; float arrays of whole numbers count as integer),
+else named cell sets (Abaqus element sets, ...). Tags without a name are
+called "region-<tag>" / "group-<tag>".
 """
 
 from __future__ import annotations
@@ -98,13 +99,23 @@ def split_blocks(raw, path: Path):
     return points, cells, region, names, tagged, tuple(warnings)
 
 
+def _whole_numbers(a: np.ndarray) -> bool:
+    """True for an integer array, or a float one holding only whole numbers
+    (several writers store region ids as floats)."""
+    if np.issubdtype(a.dtype, np.integer):
+        return True
+    if not np.issubdtype(a.dtype, np.floating) or not np.isfinite(a).all():
+        return False
+    return bool((a == np.round(a)).all() and (np.abs(a) < 2**53).all())
+
+
 def _integer_key(raw, blocks):
     """The cell_data key to take tags from for ``blocks``, or None."""
     data = raw.cell_data
 
     def usable(key, limit=None):
         arrays = [np.asarray(data[key][i]) for i in blocks]
-        ok = all(a.ndim == 1 and np.issubdtype(a.dtype, np.integer) for a in arrays)
+        ok = all(a.ndim == 1 and _whole_numbers(a) for a in arrays)
         return ok and (limit is None or len(np.unique(np.concatenate(arrays))) <= limit)
 
     others = sorted(k for k in data if k not in TAG_KEYS + LAST_TAG_KEYS)
