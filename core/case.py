@@ -212,8 +212,8 @@ def read_case_toml(path) -> dict:
     """The tables of a case file; CaseError naming the file (and line) if it cannot be read or parsed."""
     path = Path(path)
     try:
-        with open(path, "rb") as f:
-            return tomllib.load(f)
+        # utf-8-sig: editors on Windows start UTF-8 files with a byte-order mark, which TOML does not allow
+        return tomllib.loads(path.read_text(encoding="utf-8-sig"))
     except FileNotFoundError:
         raise CaseError(f"{path}: case file not found") from None
     except OSError as exc:

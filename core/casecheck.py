@@ -42,6 +42,8 @@ PROBE_KEYS = ("name", "at", "threshold")
 OUTPUT_KEYS = ("every",)
 SOLVER_NAMES = ("auto", *SOLVERS)
 _BAD_HEADER_CHARS = set(',;"\n\r\t')
+#: Most time steps a case may ask for (1e7 steps of even a tiny mesh take hours).
+MAX_STEPS = 10_000_000
 
 
 @dataclass
@@ -229,7 +231,10 @@ def _read_initial(ck: _Checker, data: dict, mesh, base_dir: Path = Path("."), un
 
 
 def _read_boundary(ck: _Checker, key: str, spec, base_dir: Path):
-    kind = spec.get("kind") if isinstance(spec, dict) else None
+    if not isinstance(spec, dict):
+        ck.bad(key, spec, f"expected a table with kind = one of {list(BOUNDARY_KINDS)}")
+        return None
+    kind = spec.get("kind")
     if kind not in BOUNDARY_KINDS:
         ck.bad(f"{key}.kind", kind, f"kind must be one of {list(BOUNDARY_KINDS)}")
         return None
@@ -276,6 +281,10 @@ def _read_time(ck: _Checker, data: dict):
     step = ck.number(sec, "time", "step", lo=0, open_lo=True)
     if end is not None and step is not None and step > end:
         ck.bad("time.step", sec["step"], f"the step must be <= time.end = {end:g} s")
+    elif end is not None and step is not None and end / step > MAX_STEPS:
+        ck.bad("time.step", sec["step"], f"time.end = {end:g} s would take {end / step:.3g} steps; "
+               f"at most {MAX_STEPS:d} are allowed; use a larger step")
+        step = None
     theta = sec.get("theta", 1.0)
     if isinstance(theta, str) and theta in THETA_PRESETS:
         theta = THETA_PRESETS[theta]

@@ -26,6 +26,7 @@ from pathlib import Path
 import h5py
 import numpy as np
 
+from .errors import InputError
 from .mesh import Mesh
 
 FIELD_NAME = "temperature"
@@ -155,7 +156,11 @@ class ResultFiles:
 
     def __init__(self, out_dir, mesh: Mesh, probe_names):
         self.out_dir = Path(out_dir)
-        self.out_dir.mkdir(parents=True, exist_ok=True)
+        try:
+            self.out_dir.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            why = "a file of that name exists" if self.out_dir.is_file() else exc.strerror
+            raise InputError(f"results folder {self.out_dir}: cannot create it ({why})") from None
         self.regions = tuple(mesh.region_names)
         self.probes_csv = CsvSeries(self.out_dir / "probes.csv", ["time", *probe_names])
         self.regions_csv = CsvSeries(self.out_dir / "regions.csv", ["time", "region", "mean", "min", "max"])

@@ -124,6 +124,43 @@ def test_tetra_with_a_hexahedron_keeps_the_tetra_and_says_what_was_ignored(tmp_p
     assert any("hexahedron 1" in w for w in mesh.warnings)
 
 
+# ----------------------------------------------------------------------------- case files
+
+def test_a_step_giving_too_many_steps_is_refused_at_time_step(tmp_path, capsys):
+    m = _box()
+    meshio.write(tmp_path / "box.vtu", meshio.Mesh(m.points, [("tetra", m.cells)]))
+    path = _case(tmp_path, "box.vtu", {}, time={"end": 1.0, "step": 1e-300})
+    for argv in (("check", path), ("run", path, "--out", tmp_path / "r", "--quiet")):
+        code, _, err = _cli(capsys, *argv)
+        assert code == 2 and "time.step: 1e-300" in err and "1e+300 steps" in err
+
+
+def test_a_boundary_that_is_not_a_table_is_named_as_such(tmp_path, capsys):
+    m = _box()
+    meshio.write(tmp_path / "box.vtu", meshio.Mesh(m.points, [("tetra", m.cells)]))
+    path = _case(tmp_path, "box.vtu", {"surface-1": "hot"})
+    code, _, err = _cli(capsys, "check", path)
+    assert code == 2 and "boundary.surface-1: 'hot' is not allowed; expected a table" in err
+
+
+def test_a_case_file_saved_with_a_byte_order_mark_reads(tmp_path, capsys):
+    m = _box()
+    meshio.write(tmp_path / "box.vtu", meshio.Mesh(m.points, [("tetra", m.cells)]))
+    path = _case(tmp_path, "box.vtu", {})
+    path.write_bytes(b"\xef\xbb\xbf" + path.read_bytes())
+    code, out, _ = _cli(capsys, "check", path)
+    assert code == 0 and out.startswith("ok:")
+
+
+def test_a_results_folder_that_is_a_file_exits_2_naming_it(tmp_path, capsys):
+    m = _box()
+    meshio.write(tmp_path / "box.vtu", meshio.Mesh(m.points, [("tetra", m.cells)]))
+    path = _case(tmp_path, "box.vtu", {})
+    (tmp_path / "taken").write_text("")
+    code, _, err = _cli(capsys, "run", path, "--out", tmp_path / "taken", "--quiet")
+    assert code == 2 and "results folder" in err and "taken" in err and "a file of that name exists" in err
+
+
 # ----------------------------------------------------------------------------- physics on odd meshes
 
 def _run(tmp_path, capsys, path):
