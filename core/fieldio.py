@@ -57,12 +57,15 @@ def read_nodal_field(path, mesh: Mesh, unit_scale: float = 1.0, name: str = "tem
         points, data = _read_points_and_values(path, name)
     except InputError as exc:
         raise InputError(f"initial field file: {exc}") from None
-    if name in data:
-        values = np.asarray(data[name], dtype=float).reshape(len(points), -1)[:, 0]
-    elif len(data) == 1:
-        values = np.asarray(next(iter(data.values())), dtype=float).reshape(len(points), -1)[:, 0]
-    else:
+    if name not in data and len(data) == 1:
+        name = next(iter(data))
+    if name not in data:
         raise InputError(f"initial field file {path} has no point array {name!r}; it has {sorted(data)}")
+    values = np.asarray(data[name], dtype=float).reshape(len(points), -1)
+    if values.shape[1] != 1:
+        raise InputError(f"initial field file {path}: point array {name!r} has {values.shape[1]} components "
+                         "per node; a temperature has one")
+    values = values[:, 0]
     if not np.isfinite(values).all():
         raise InputError(f"initial field file {path}: array {name!r} holds NaN or infinite values")
     diag = float(np.linalg.norm(mesh.points.max(axis=0) - mesh.points.min(axis=0)))

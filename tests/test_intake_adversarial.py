@@ -200,3 +200,12 @@ def test_two_disconnected_bodies_heat_only_the_one_given_heat(tmp_path, capsys):
     probes = np.loadtxt(tmp_path / "out" / "probes.csv", delimiter=",", skiprows=1)
     assert probes[-1, 1] > 20.0 + 1e-3
     assert np.all(probes[:, 2] == 20.0)
+
+
+def test_an_initial_field_with_three_components_per_node_is_refused(tmp_path, capsys):
+    m = _box()
+    field = {"temperature": np.ones((len(m.points), 3))}
+    meshio.write(tmp_path / "box.vtu", meshio.Mesh(m.points, [("tetra", m.cells)], point_data=field))
+    path = _case(tmp_path, "box.vtu", {}, initial={"file": "box.vtu"})
+    code, _, err = _cli(capsys, "check", path)
+    assert code == 2 and "initial.file" in err and "'temperature' has 3 components" in err
