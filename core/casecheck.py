@@ -23,6 +23,7 @@ from .probes import distance_to_boundary, locate
 from .problem import BOUNDARY_KINDS, MASS_KINDS, Boundary, Material, Probe, TimeSettings
 from .schedule import parse_schedule
 from .stepping import THETA_PRESETS
+from .stepping.base import MAX_STEPS
 
 #: Top-level tables, in the order they are written.
 SECTIONS = ("title", "mesh", "material", "initial", "boundary", "time", "probe", "output")
@@ -42,8 +43,6 @@ PROBE_KEYS = ("name", "at", "threshold")
 OUTPUT_KEYS = ("every",)
 SOLVER_NAMES = ("auto", *SOLVERS)
 _BAD_HEADER_CHARS = set(',;"\n\r\t')
-#: Most time steps a case may ask for (1e7 steps of even a tiny mesh take hours).
-MAX_STEPS = 10_000_000
 
 
 @dataclass

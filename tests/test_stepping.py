@@ -48,6 +48,22 @@ def test_a_mark_next_to_a_grid_point_replaces_it_without_a_sliver_step():
     assert len(t) == 10
 
 
+def test_many_marks_near_grid_points_all_land_exactly_and_no_step_is_a_sliver():
+    dt = 0.01
+    rng = np.random.default_rng(5)
+    grid_marks = dt * rng.choice(np.arange(1, 1000), 300, replace=False) * (1 + 0.3 * MERGE)
+    free_marks = rng.uniform(0.0, 10.0, 300)
+    t = step_times(10.0, dt, marks=np.concatenate([grid_marks, free_marks, grid_marks]))
+    assert np.isin(grid_marks, t).all() and np.isin(free_marks, t).all()
+    assert np.diff(np.concatenate([[0.0], t])).min() > MERGE * dt
+    assert t[-1] == 10.0 and np.all(np.diff(t) > 0)
+
+
+def test_a_run_of_too_many_steps_is_refused_before_it_starts():
+    with pytest.raises(InputError, match="1e-300 s gives .* steps; at most 10000000"):
+        step_times(1.0, 1e-300)
+
+
 def test_steps_land_exactly_on_breakpoints_and_output_times():
     table = Table([0.0, 1.7, 4.05, 6.0], [0.0, 50.0, 50.0, 10.0])
     wanted = (2.2, 7.77)
@@ -275,3 +291,15 @@ def test_bad_time_settings_are_input_errors(settings):
     base.update(settings)
     with pytest.raises(InputError):
         ThetaMethod(end_held(), TimeSettings(**base))
+
+
+def test_a_run_in_which_nothing_happens_reports_no_imbalance():
+    # the held temperature equals the initial one until after the end: no heat moves, and the
+    # round-off of zero heat must not read as a 100% imbalance
+    mesh = box_mesh((3, 2, 2))
+    bcs = {"xmin": Boundary("temperature", Ramp(20.0, 80.0, 100.0, 10.0))}
+    problem = Problem(mesh, {"box": Material(1000.0, 500.0, 20.0)}, bcs, initial=20.0)
+    stepper = ThetaMethod(problem, TimeSettings(end=50.0, step=5.0))
+    *_, (_, T) = stepper.steps()
+    np.testing.assert_allclose(T, 20.0, rtol=0, atol=1e-12)
+    assert stepper.energy()["relative_imbalance"] < 1e-12

@@ -12,8 +12,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..errors import InputError
+
 #: Relative tolerance for merging a grid time with a breakpoint [fraction of dt].
 MERGE = 1e-6
+#: Most steps a run may take (1e7 steps of even a tiny mesh take hours).
+MAX_STEPS = 10_000_000
 
 
 @dataclass
@@ -56,17 +60,23 @@ def step_times(end: float, dt: float, marks=()) -> np.ndarray:
     -------
     (n_steps,) increasing array ending with ``end``.
     """
-    n = int(np.floor(end / dt * (1 + 1e-12)))
+    count = end / dt if dt > 0 else np.inf
+    if not count <= MAX_STEPS:
+        raise InputError(f"time end {end:g} s with step {dt:g} s gives {count:.3g} steps; "
+                         f"at most {MAX_STEPS:d} are allowed, use a larger step")
+    n = int(np.floor(count * (1 + 1e-12)))
     grid = dt * np.arange(1, n + 1)
-    marks = np.asarray([m for m in marks if 0.0 < m < end], dtype=float)
+    marks = np.unique(np.asarray([m for m in marks if 0.0 < m < end], dtype=float))
     pts = np.concatenate([grid[grid < end], marks, [end]])
     pts.sort()
     keep = np.concatenate([[True], np.diff(pts) > MERGE * dt])
     pts = pts[keep]
     # prefer the exact mark where a grid point merged with it
-    for m in marks:
-        i = np.argmin(np.abs(pts - m))
-        pts[i] = m
+    if marks.size:
+        right = np.clip(np.searchsorted(pts, marks), 1, len(pts) - 1)
+        left = right - 1
+        nearest = np.where(np.abs(pts[left] - marks) <= np.abs(pts[right] - marks), left, right)
+        pts[nearest] = marks
     pts[-1] = end
     return pts
 

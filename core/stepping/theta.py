@@ -289,12 +289,16 @@ class ThetaMethod(Integrator):
         """Heat stored versus heat that entered, since t = 0 [J].
 
         ``boundary_in_J`` is heat flux plus convection, ``dirichlet_in_J`` the
-        heat that flowed in through prescribed-temperature nodes.
+        heat that flowed in through prescribed-temperature nodes;
+        ``relative_imbalance`` is the imbalance over the largest of the heat
+        stored, the heat that entered and the heat capacity of the body times 1 K.
         """
         e = dict(self._energy)
         inflow = e["boundary_in_J"] + e["source_in_J"] + e["dirichlet_in_J"]
         e["imbalance_J"] = e["stored_J"] - inflow
-        scale = max(abs(e["stored_J"]), abs(inflow), 1e-300)
+        # relative to the larger of the heats moved and the heat that warms the whole body by 1 K,
+        # so that a run in which nearly nothing happens does not divide round-off by round-off
+        scale = max(abs(e["stored_J"]), abs(inflow), float(self._m_all.sum()) * 1.0, 1e-300)
         e["relative_imbalance"] = abs(e["imbalance_J"]) / scale
         return e
 
