@@ -106,6 +106,16 @@ def _reader(fmt: str):
         return lambda name: meshio.read(name, file_format=fmt)
 
 
+def _reader_problem(fmt: str, exc: BaseException) -> str:
+    """One line saying why the ``fmt`` reader failed, in words where the exception has none."""
+    if isinstance(exc, KeyError):
+        # readers look nodes and sets up by their ids: a missing one is a broken reference
+        key = exc.args[0] if exc.args else "?"
+        key = key.item() if isinstance(key, np.generic) else key
+        return f"as {fmt}: it refers to a node, element or set {key!r} that it does not define"
+    return f"as {fmt}: {type(exc).__name__}: {exc}" if str(exc) else f"not readable as {fmt}"
+
+
 def read_raw(path: Path):
     """meshio's reading of ``path``, with every failure turned into MeshError.
 
@@ -126,9 +136,7 @@ def read_raw(path: Path):
             with contextlib.redirect_stdout(out), contextlib.redirect_stderr(out):
                 raw = _reader(fmt)(str(path))
         except (Exception, SystemExit) as exc:  # noqa: BLE001 - each reader fails its own way on a bad file
-            problems.append(
-                f"as {fmt}: {type(exc).__name__}: {exc}" if str(exc) else f"not readable as {fmt}"
-            )
+            problems.append(_reader_problem(fmt, exc))
             continue
         notes = tuple(f"reader: {line.strip()}" for line in out.getvalue().splitlines() if line.strip())
         return raw, notes

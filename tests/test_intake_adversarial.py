@@ -113,6 +113,15 @@ def test_inspect_of_a_flat_mesh_exits_2(tmp_path, capsys):
     assert code == 2 and "one plane" in err
 
 
+def test_an_element_on_a_node_the_file_does_not_define_is_named(tmp_path, capsys):
+    path = tmp_path / "broken.inp"
+    path.write_text("*NODE\n1, 0, 0, 0\n2, 1, 0, 0\n3, 0, 1, 0\n4, 0, 0, 1\n"
+                    "*ELEMENT, TYPE=C3D4\n1, 1, 2, 3, 5\n")
+    code, _, err = _cli(capsys, "inspect", path, "--unit", "mm")
+    assert code == 2 and "broken.inp" in err
+    assert "refers to a node, element or set 5 that it does not define" in err
+
+
 def test_tetra_with_a_hexahedron_keeps_the_tetra_and_says_what_was_ignored(tmp_path):
     m = _box()
     hexa = np.array([[20, 0, 0], [21, 0, 0], [21, 1, 0], [20, 1, 0], [20, 0, 1], [21, 0, 1], [21, 1, 1], [20, 1, 1]])
