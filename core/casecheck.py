@@ -210,6 +210,9 @@ def _read_initial(ck: _Checker, data: dict, mesh, base_dir: Path = Path("."), un
     raw = data.get("initial", {})
     need = () if isinstance(raw, dict) and "file" in raw else ("temperature",)
     sec = ck.table(raw, "initial", INITIAL_KEYS, required=need)
+    both = [k for k in ("temperature", "region") if k in sec]
+    if "file" in sec and both:
+        ck.add("initial", f"give either file or {' and '.join(both)}, not both: the file sets every node")
     if "file" in sec:
         if mesh is None:
             return None

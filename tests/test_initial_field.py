@@ -55,3 +55,13 @@ def test_an_unreadable_field_file_is_an_input_error(tmp_path, content):
     (tmp_path / "bad.vtu").write_text(content)
     with pytest.raises(ValueError, match="bad.vtu"):
         read_nodal_field(tmp_path / "bad.vtu", case.problem.mesh)
+
+
+def test_a_field_file_and_a_temperature_together_are_refused(tmp_path, capsys):
+    case = make_case(tmp_path)
+    run_case(load_case(case), tmp_path / "first")
+    text = case.read_text().replace("[initial]\ntemperature = 20",
+                                    '[initial]\ntemperature = 20\nfile = "first/temperature.xdmf"')
+    case.write_text(text)
+    assert main(["check", str(case)]) == 2
+    assert "initial: give either file or temperature, not both" in capsys.readouterr().err
