@@ -48,6 +48,22 @@ def unit_scale(unit: str) -> float:
         raise InputError(f"unknown length unit {unit!r}; allowed: {', '.join(UNITS)}") from None
 
 
+#: Largest extents [m] of the parts a heat model is usually made of; outside them the unit is doubted.
+PLAUSIBLE_EXTENT_M = (1e-3, 20.0)
+
+
+def unit_doubt(extent_m: float, unit: str) -> str | None:
+    """A note when a mesh ``extent_m`` [m] across (its largest bounding-box side) is an unlikely
+    part size, as when millimetre coordinates are read as metres; None when it is plausible."""
+    lo, hi = PLAUSIBLE_EXTENT_M
+    if lo <= extent_m <= hi:
+        return None
+    sizes = {u: extent_m * UNITS[u] / UNITS[unit] for u in ("mm", "m", "in", "cm")}  # common mix-ups first
+    other = [f"in {u!r} {e:.4g} m" for u, e in sizes.items() if lo <= e <= hi][:2]
+    hint = f"; read {' or '.join(other)}" if other else ""
+    return f"the mesh is {extent_m:.4g} m across read in {unit!r}: if the part is not that size, the unit is wrong{hint}"
+
+
 def read_mesh(path, unit: str = "m", feature_angle: float = 30.0) -> Mesh:
     """Read a tetrahedral mesh file in any format meshio reads.
 
@@ -70,8 +86,12 @@ def read_mesh(path, unit: str = "m", feature_angle: float = 30.0) -> Mesh:
     path = Path(path)
     raw, notes = read_raw(path)
     points, cells, region, names, tagged, more = split_blocks(raw, path)
+    points = points * scale
+    if len(points):
+        doubt = unit_doubt(float(np.ptp(points, axis=0).max()), unit)
+        more = (*more, doubt) if doubt else more
     return build_mesh(
-        points * scale,
+        points,
         cells,
         region,
         names,

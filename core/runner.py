@@ -161,6 +161,9 @@ def describe_case(case: Case) -> list:
     kind = "tetra" if m.order == 1 else "tetra10"
     lines = [(f"mesh      {case.mesh_file.name} ({case.unit}): {m.n_nodes} nodes, {m.n_cells} {kind} cells, "
               f"{len(m.region_names)} regions, {len(m.group_names)} surface groups")]
+    extent = m.points.max(axis=0) - m.points.min(axis=0)
+    scale = UNITS[case.unit]
+    lines.append(f"size      {' x '.join(f'{e / scale:.4g}' for e in extent)} {case.unit}")
     for name, mat in case.problem.materials.items():
         k = mat.conductivity if np.ndim(mat.conductivity) == 0 else "tensor"
         src = "" if mat.source is None else f", source [W/m3] {mat.source.describe()}"

@@ -60,7 +60,7 @@ def facts() -> None:
                 _fact("Elements", "hs_facts.elements.toLocaleString() + (hs_facts.element_order == 2 ? "
                                   "' quadratic tetrahedra' : ' linear tetrahedra')")
                 _fact("Size", "hs_facts.bounding_box.max.map((v, i) => ((v - hs_facts.bounding_box.min[i]) "
-                              "/ hs_unit_m).toPrecision(4)).join(' × ') + ' ' + hs_unit + '  (is the unit right?)'")
+                              "/ hs_unit_m).toPrecision(4)).join(' × ') + ' ' + hs_unit")
                 _fact("Regions", "hs_facts.regions.map(r => `${r.name} (${r.elements})`).join(', ')")
                 _fact("Surface groups", "hs_facts.surface_groups.length")
         v3.VAlert(v_for="w in hs_facts.warnings", key="w", text=("w",), type="warning", variant="tonal",

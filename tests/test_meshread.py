@@ -356,3 +356,17 @@ def test_nearly_flat_element_is_reported_not_refused():
     got = build_mesh(points, cells, np.zeros(len(cells), int), ("body",), None)
     assert got.n_cells == m.n_cells + 1
     assert any("1 elements of nearly zero volume (worst: element 48" in w for w in got.warnings)
+
+
+def test_a_part_of_an_unlikely_size_gets_a_note_that_doubts_the_unit(tmp_path):
+    from heatsoak.core.meshread import unit_doubt
+
+    assert unit_doubt(0.12, "m") is None and unit_doubt(15.0, "m") is None
+    note = unit_doubt(120.0, "m")  # a 120 mm part read in metres
+    assert "120 m across read in 'm'" in note and "read in 'mm' 0.12 m or in 'in' 3.048 m" in note
+    assert "read in 'm' 0.12 m" in unit_doubt(1.2e-4, "mm")  # metres read as millimetres
+    mesh = box_mesh((2, 2, 2), size=(120.0, 80.0, 20.0))
+    path = tmp_path / "plate.vtu"
+    meshio.write(path, meshio.Mesh(mesh.points, [("tetra", mesh.cells)]))
+    assert any("unit is wrong" in w for w in read_mesh(path, unit="m").warnings)
+    assert not any("unit is wrong" in w for w in read_mesh(path, unit="mm").warnings)
