@@ -90,6 +90,14 @@ def _number(value, key: str) -> float:
     return x
 
 
+def _whole(value, key: str) -> int:
+    """A whole number typed as text ("3", "3.0", "1e3"); its range is left to the core checks."""
+    x = _number(value, key)
+    if x != int(x):
+        raise FormError(key, f"{value!r} is not a whole number")
+    return int(x)
+
+
 def boundary_entry(form: dict, group: str) -> dict:
     """``boundary.<group>`` of the case from a condition form.
 
@@ -153,7 +161,7 @@ def case_from_forms(mesh: dict, bcs: dict, materials: dict, initial, time: dict,
     case["time"] = {k: attempt(_number, time.get(k), f"time.{k}") for k in ("end", "step", "theta")}
     case["time"]["mass"] = time.get("mass", "consistent")
     case["probe"] = [p for p in (attempt(probe_entry, p) for p in probes) if p]
-    case["output"] = {"every": int(every)}
+    case["output"] = {"every": attempt(_whole, every, "output.every")}
     return case, errors
 
 
@@ -163,7 +171,7 @@ def probe_entry(form: dict) -> dict:
     key = f"probe.{name or '?'}"
     if not name:
         raise FormError(key, "a probe needs a name")
-    entry = {"name": name, "at": [_number(form.get(c), f"{key}.at") for c in ("x", "y", "z")]}
+    entry = {"name": name, "at": [_number(form.get(c), f"{key}.{c}") for c in ("x", "y", "z")]}
     if form.get("threshold") not in (None, ""):
         entry["threshold"] = _number(form["threshold"], f"{key}.threshold")
     return entry

@@ -32,6 +32,7 @@ def register(panel) -> None:
     @server.trigger("hs_export_case")
     def export_case():
         """The case as TOML, exactly what ``heatsoak run`` reads (mesh file next to it)."""
+        state.hs_export_error = ""
         data, errors = h_setup.current_case(panel)
         if errors:
             state.hs_export_error = f"the case has unreadable entries: {errors[0]}"
@@ -41,6 +42,7 @@ def register(panel) -> None:
     @server.trigger("hs_export_bundle")
     def export_bundle():
         """A zip of case.toml and the mesh file: unzip and run anywhere."""
+        state.hs_export_error = ""
         data, errors = h_setup.current_case(panel)
         if errors or panel.mesh_path is None:
             state.hs_export_error = "open a mesh and fix the marked entries first"

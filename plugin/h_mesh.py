@@ -133,9 +133,11 @@ def open_case(panel, path: Path) -> bool:
     except (OSError, tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
         state.hs_mesh_error = f"{Path(path).name}: cannot read the case file ({exc})"
         return False
-    mesh_sec = data.get("mesh", {})
-    state.hs_unit = mesh_sec.get("unit", "m")
-    state.hs_feature_angle = float(mesh_sec.get("feature_angle", 30.0))
+    mesh_sec = data.get("mesh") if isinstance(data.get("mesh"), dict) else {}
+    angle = mesh_sec.get("feature_angle", 30.0)
+    if isinstance(angle, bool) or not isinstance(angle, (int, float)):
+        state.hs_mesh_error = f"{Path(path).name}: mesh.feature_angle {angle!r} is not a number of degrees"
+        return False
     try:
         mesh_path = (Path(path).parent / str(mesh_sec.get("file", ""))).resolve()
     except (TypeError, ValueError):
@@ -143,7 +145,11 @@ def open_case(panel, path: Path) -> bool:
     if mesh_path is None or not mesh_path.is_file():
         state.hs_mesh_error = f"{Path(path).name}: mesh.file {mesh_sec.get('file')!r} not found next to the case"
         return False
+    previous = state.hs_unit, state.hs_feature_angle
+    state.hs_unit, state.hs_feature_angle = str(mesh_sec.get("unit", "m")), float(angle)
     if not open_mesh(panel, mesh_path):
+        state.hs_unit, state.hs_feature_angle = previous  # the mesh open now was read with these
+        state.hs_mesh_error = f"{Path(path).name}: {state.hs_mesh_error}"
         return False
     fill_forms_from_case(panel, data, Path(path).parent)
     state.hs_case_name = Path(path).name
@@ -166,8 +172,9 @@ def fill_forms_from_case(panel, data: dict, base_dir: Path) -> None:
             except (InputError, ValueError, TypeError) as exc:
                 state.hs_mesh_error = f"boundary.{group}: {exc}"
     mats = dict(panel.mats)
+    materials = data.get("material") if isinstance(data.get("material"), dict) else {}
     for region in mats:
-        entry = (data.get("material") or {}).get(region) or (data.get("material") or {}).get("*")
+        entry = materials.get(region) or materials.get("*")
         if isinstance(entry, dict):
             mats[region] = h_setup.material_form(entry)
     h_setup.set_forms(panel, bcs=bcs, mats=mats, case=data)

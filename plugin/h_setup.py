@@ -15,7 +15,7 @@ from heatsoak.core.meshread import UNITS
 from heatsoak.core.schedule import parse_schedule
 
 from . import files, plots
-from .forms import KIND_UNITS, KINDS, FormError, case_from_forms, default_bc, issues_by_field, schedule_value
+from .forms import KIND_UNITS, KINDS, FormError, case_from_forms, default_bc, issues_by_field, probe_entry, schedule_value
 from .scene import group_colour
 
 BC_FIELDS = ("kind", "shape", "value", "start", "end", "at", "over", "table", "h")
@@ -28,8 +28,16 @@ def material_form(entry: dict) -> dict:
     """A material form from a case ``material.<region>`` table or a library key."""
     if isinstance(entry, str):
         return {"preset": entry, **{k: v for k, v in LIBRARY[entry].as_case().items() if k != "label"}}
-    preset = next((k for k, m in LIBRARY.items() if entry.get("label", "").startswith(m.name)), "custom")
-    return {"preset": preset, **{k: float(entry.get(k, 0.0)) for k in MAT_FIELDS[1:]}}
+    preset = next((k for k, m in LIBRARY.items() if str(entry.get("label", "")).startswith(m.name)), "custom")
+    return {"preset": preset, **{k: _as_number(entry.get(k, 0.0)) for k in MAT_FIELDS[1:]}}
+
+
+def _as_number(value):
+    """A float when ``value`` reads as one, else the value as text (the field then shows what is wrong)."""
+    try:
+        return float(value)
+    except (TypeError, ValueError):
+        return str(value)
 
 
 def register(panel) -> None:
@@ -45,7 +53,7 @@ def register(panel) -> None:
         "hs_library_note": SOURCE_NOTE, "hs_preview": "", "hs_err": {}, "hs_run_reason": "Open a mesh first",
         "hs_t_end": 600.0, "hs_t_step": 10.0, "hs_t_theta": 1.0, "hs_t_mass": "consistent", "hs_initial": 20.0,
         "hs_every": 1, "hs_theta_hint": "", "hs_probes": [], "hs_p_name": "P1", "hs_p_x": 0.0, "hs_p_y": 0.0,
-        "hs_p_z": 0.0, "hs_p_threshold": None, "hs_case_name": "",
+        "hs_p_z": 0.0, "hs_p_threshold": None, "hs_probe_error": "", "hs_case_name": "",
     })
     state.update({f"hs_e_{k}": v for k, v in default_bc().items()})
     state.update({f"hs_m_{k}": None for k in MAT_FIELDS})
@@ -139,6 +147,12 @@ def register_probes(panel) -> None:
         """Add the probe typed in the probe fields."""
         row = {"name": str(state.hs_p_name).strip(), "x": state.hs_p_x, "y": state.hs_p_y, "z": state.hs_p_z,
                "threshold": state.hs_p_threshold if state.hs_p_threshold not in ("", None) else None}
+        try:
+            probe_entry(row)
+        except FormError as exc:  # keep the typed values and say which one is wrong
+            state.hs_probe_error = f"{exc.key}: {exc.message}"
+            return
+        state.hs_probe_error = ""
         state.hs_probes = [p for p in state.hs_probes if p["name"] != row["name"]] + [row]
         state.hs_p_name = next_probe_name(state.hs_probes)
         probes_changed(panel)
@@ -176,6 +190,14 @@ def _differs(a, b) -> bool:
         return abs(float(a) - float(b)) > 1e-12 * max(1.0, abs(float(b)))
     except (TypeError, ValueError):
         return True
+
+
+def _readable(probe: dict) -> bool:
+    try:
+        probe_entry(probe)
+    except FormError:
+        return False
+    return True
 
 
 def next_probe_name(probes) -> str:
@@ -223,13 +245,14 @@ def set_forms(panel, bcs: dict, mats: dict, case: dict) -> None:
     state = panel.state
     panel.bcs.update(bcs)
     panel.mats.update(mats)
-    time = case.get("time") or {}
+    time = case.get("time") if isinstance(case.get("time"), dict) else {}
     state.update({"hs_t_end": time.get("end", 600.0), "hs_t_step": time.get("step", 10.0),
                   "hs_t_theta": time.get("theta", 1.0), "hs_t_mass": time.get("mass", "consistent"),
                   "hs_initial": (case.get("initial") or {}).get("temperature", 20.0),
                   "hs_every": (case.get("output") or {}).get("every", 1)})
-    state.hs_probes = [{"name": p.get("name", ""), "x": p["at"][0], "y": p["at"][1], "z": p["at"][2],
-                        "threshold": p.get("threshold")} for p in case.get("probe", []) if "at" in p]
+    state.hs_probes, skipped = probe_rows(case.get("probe"))
+    if skipped:
+        state.hs_mesh_error = f"{skipped[0]}: expected a table with at = [x, y, z]; this probe was left out"
     state.hs_p_name = next_probe_name(state.hs_probes)
     group, region = state.hs_group, state.hs_region
     state.hs_group = state.hs_region = None
@@ -238,13 +261,26 @@ def set_forms(panel, bcs: dict, mats: dict, case: dict) -> None:
     probes_changed(panel)
 
 
+def probe_rows(probes) -> tuple[list, list]:
+    """Probe form rows of a case's ``[[probe]]`` list, and the keys of entries that have no [x, y, z]."""
+    rows, skipped = [], []
+    for i, p in enumerate(probes if isinstance(probes, list) else []):
+        at = p.get("at") if isinstance(p, dict) else None
+        if not isinstance(at, list) or len(at) != 3:
+            skipped.append(f"probe[{i}]")
+            continue
+        rows.append({"name": str(p.get("name", "")), "x": at[0], "y": at[1], "z": at[2], "threshold": p.get("threshold")})
+    return rows, skipped
+
+
 def probes_changed(panel) -> None:
     """Mark the probes in 3D and check the case again."""
     state = panel.state
     if panel.mesh is not None:
         scale = UNITS.get(state.hs_unit, 1.0)
-        pts = [[float(p[c]) * scale for c in "xyz"] for p in state.hs_probes]
-        panel.scene.show_probes(np.array(pts).reshape(-1, 3), [p["name"] for p in state.hs_probes])
+        shown = [p for p in state.hs_probes if _readable(p)]  # a case file may hold unreadable ones
+        pts = [[float(p[c]) * scale for c in "xyz"] for p in shown]
+        panel.scene.show_probes(np.array(pts).reshape(-1, 3), [p["name"] for p in shown])
         panel.update_view()
     validate(panel)
 
@@ -256,7 +292,7 @@ def current_case(panel) -> tuple:
             "feature_angle": float(state.hs_feature_angle)}
     time = {"end": state.hs_t_end, "step": state.hs_t_step, "theta": state.hs_t_theta, "mass": state.hs_t_mass}
     return case_from_forms(mesh, panel.bcs, panel.mats, state.hs_initial, time, state.hs_probes,
-                           every=max(1, int(state.hs_every or 1)))
+                           every=state.hs_every)
 
 
 def validate(panel) -> list:
@@ -276,8 +312,9 @@ def validate(panel) -> list:
 
 
 def _reason(issue) -> str:
-    message = issue.message if isinstance(issue, FormError) else str(issue)
-    return f"Fix first: {message}".replace(f"{issue.key}: ", f"{issue.key} - ", 1)
+    if isinstance(issue, FormError):  # its message lacks the key: name the field
+        return f"Fix first: {issue.key} - {issue.message}"
+    return f"Fix first: {issue}".replace(f"{issue.key}: ", f"{issue.key} - ", 1)
 
 
 def group_rows(panel, errors: dict) -> list:

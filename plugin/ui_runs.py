@@ -16,6 +16,11 @@ DOWNLOADS = (
 )
 
 
+def save_js(name: str, call: str, mime: str) -> str:
+    """Client code that saves what ``call`` returns, and nothing when it returns null (the handler said why)."""
+    return f"{call}.then(d => d != null && utils.download({name}, d, {mime}))"
+
+
 def build(panel) -> None:
     """Run list with overlay choices, then the export buttons and the engineering note."""
     ctrl = panel.ctrl
@@ -40,7 +45,7 @@ def build(panel) -> None:
     with html.Div(classes="d-flex flex-column ga-1 px-3"):
         for label, icon, name, trigger, mime, ident in DOWNLOADS:
             v3.VBtn(label, prepend_icon=icon, size="small", variant="tonal", color="#2f5d50", block=True,
-                    click=f"utils.download('{name}', trigger('{trigger}'), '{mime}')", id=ident,
+                    click=save_js(f"'{name}'", f"trigger('{trigger}')", f"'{mime}'"), id=ident,
                     disabled=("!hs_runs.length" if "results" in name or "probes" in name else "false",),
                     classes="justify-start")
         with html.Div(classes="d-flex ga-1"):
@@ -48,8 +53,8 @@ def build(panel) -> None:
                        variant="outlined", hide_details=True, style="max-width: 90px")
             v3.VBtn("Animation", prepend_icon="mdi-movie-open-outline", size="small", variant="tonal",
                     color="#2f5d50", disabled=("!hs_runs.length",), id="hs-export-movie",
-                    click="utils.download(`animation.${hs_movie_format}`, trigger('hs_export_movie', "
-                          "[hs_movie_format]), `image/${hs_movie_format}`)")
+                    click=save_js("`animation.${hs_movie_format}`", "trigger('hs_export_movie', [hs_movie_format])",
+                                  "`image/${hs_movie_format}`"))
         html.Div("{{ hs_export_error }}", v_if="hs_export_error", classes="text-caption text-error")
     v3.VDivider(classes="my-2")
     v3.VAlert(text=("hs_disclaimer",), density="compact", variant="tonal", color="#7a5c12", classes="mx-3 text-caption",

@@ -191,4 +191,6 @@ def probes_section(panel) -> None:
                 number("hs_p_threshold", "Threshold", "°C", id="hs-p-threshold")
         v3.VBtn("Add probe", prepend_icon="mdi-plus", size="small", variant="tonal", color="#2f5d50",
                 click=ctrl.hs_add_probe, id="hs-add-probe")
+        html.Div("{{ hs_probe_error }}", v_if="hs_probe_error", classes="text-caption text-error",
+                 id="hs-probe-error")
         note("Or choose 'place probe' above and click on the surface.")
