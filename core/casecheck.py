@@ -25,6 +25,8 @@ from .schedule import parse_schedule
 from .stepping import THETA_PRESETS
 from .stepping.base import MAX_STEPS
 
+#: Absolute zero [degC]: no temperature may be below it.
+ABSOLUTE_ZERO_C = -273.15
 #: Top-level tables, in the order they are written.
 SECTIONS = ("title", "mesh", "material", "initial", "boundary", "time", "probe", "output")
 REQUIRED_SECTIONS = ("mesh", "material", "initial", "time")
@@ -200,10 +202,15 @@ def _read_initial_file(ck: _Checker, value, base_dir: Path, mesh, unit: str):
         ck.bad("initial.file", value, "expected a file name")
         return None
     try:
-        return read_nodal_field(Path(base_dir) / value, mesh, unit_scale(unit))
+        field = read_nodal_field(Path(base_dir) / value, mesh, unit_scale(unit))
     except InputError as exc:
         ck.add("initial.file", str(exc))
         return None
+    if field.min() < ABSOLUTE_ZERO_C:
+        ck.add("initial.file", f"{value}: its lowest temperature {field.min():g} degC is below absolute zero "
+                               f"({ABSOLUTE_ZERO_C:g} degC); is it in kelvin or another unit?")
+        return None
+    return field
 
 
 def _read_initial(ck: _Checker, data: dict, mesh, base_dir: Path = Path("."), unit: str = "m"):
@@ -217,7 +224,7 @@ def _read_initial(ck: _Checker, data: dict, mesh, base_dir: Path = Path("."), un
         if mesh is None:
             return None
         return _read_initial_file(ck, sec["file"], base_dir, mesh, unit)
-    t0 = ck.number(sec, "initial", "temperature")
+    t0 = ck.number(sec, "initial", "temperature", lo=ABSOLUTE_ZERO_C)
     per = sec.get("region", {})
     if not isinstance(per, dict):
         ck.bad("initial.region", per, "expected a table REGION = temperature")
@@ -226,10 +233,19 @@ def _read_initial(ck: _Checker, data: dict, mesh, base_dir: Path = Path("."), un
     for name in per:
         if mesh is not None and not ck.name(name, mesh.region_names, f"initial.region.{name}", "region"):
             continue
-        values[name] = ck.number(per, "initial.region", name)
+        values[name] = ck.number(per, "initial.region", name, lo=ABSOLUTE_ZERO_C)
     if not values or t0 is None or mesh is None:
         return t0
     return {r: values.get(r, t0) for r in mesh.region_names}
+
+
+def _temperature_schedule(ck: _Checker, value, key: str, base_dir: Path):
+    """A temperature schedule [degC] that never falls below absolute zero; None after reporting."""
+    sched = ck.schedule(value, key, base_dir)
+    if sched is not None and sched.lowest() < ABSOLUTE_ZERO_C:
+        ck.add(key, f"falls to {sched.lowest():g} degC, below absolute zero ({ABSOLUTE_ZERO_C:g} degC)")
+        return None
+    return sched
 
 
 def _read_boundary(ck: _Checker, key: str, spec, base_dir: Path):
@@ -250,14 +266,15 @@ def _read_boundary(ck: _Checker, key: str, spec, base_dir: Path):
         if "ambient" not in t:
             ck.add(f"{key}.ambient", "missing (ambient temperature [degC], a number or a schedule)")
             return None
-        amb = ck.schedule(t["ambient"], f"{key}.ambient", base_dir)
+        amb = _temperature_schedule(ck, t["ambient"], f"{key}.ambient", base_dir)
         return None if h is None or amb is None or "h" not in t else Boundary("convection", h=h, ambient=amb)
     given = [k for k in SCHEDULE_KEYS if k in t]
     if len(given) != 1:
         ck.add(key, f"give exactly one of value = number, ramp = {{...}} or table = ...; found {given or 'none'}")
         return None
-    sched = ck.schedule(t["value"], f"{key}.value", base_dir) if given == ["value"] else \
-        ck.schedule({given[0]: t[given[0]]}, key, base_dir)
+    value, at = (t["value"], f"{key}.value") if given == ["value"] else ({given[0]: t[given[0]]}, key)
+    sched = _temperature_schedule(ck, value, at, base_dir) if kind == "temperature" else \
+        ck.schedule(value, at, base_dir)
     return None if sched is None else Boundary(kind, value=sched)
 
 

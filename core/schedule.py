@@ -57,6 +57,14 @@ class Schedule:
         """The case-file value this schedule is written as."""
         raise NotImplementedError
 
+    def lowest(self) -> float:
+        """The smallest value the schedule takes for t >= 0 (piecewise linear: at a corner or
+        just before one, where a ramp of zero length jumps)."""
+        bp = np.asarray(self.breakpoints(), dtype=float)
+        bp = bp[bp >= 0.0]
+        t = np.concatenate([[0.0], bp, bp * (1.0 - 1e-12) - 1e-300])
+        return float(np.min(self(t[t >= 0.0])))
+
     def __repr__(self) -> str:
         return f"{type(self).__name__}({self.describe()})"
 

@@ -119,6 +119,13 @@ BAD = {
     "ambient": (_set(["boundary", "xmax", "ambient"], {"ramp": 3}), "boundary.xmax.ambient.ramp: expected a table"),
     "mesh-file": (_set(["mesh", "file"], "nothere.msh"), "mesh.file: 'nothere.msh'"),
     "mesh-unit": (_set(["mesh", "unit"], "ft"), "mesh.unit: 'ft' is not allowed; allowed units are"),
+    # no temperature below absolute zero (-273.15 degC, common practice, no source)
+    "initial-below-zero": (_set(["initial", "temperature"], -300), "initial.temperature: -300 is not allowed; "
+                                                                   "must be >= -273.15"),
+    "ramp-below-zero": (_set(["boundary", "xmin", "ramp", "end"], -280),
+                        "boundary.xmin: falls to -280 degC, below absolute zero (-273.15 degC)"),
+    "ambient-below-zero": (_set(["boundary", "xmax", "ambient"], {"table": [[0, 20], [10, -274], [20, 0]]}),
+                           "boundary.xmax.ambient: falls to -274 degC, below absolute zero"),
 }
 
 

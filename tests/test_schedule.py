@@ -133,3 +133,10 @@ def test_a_first_row_mixing_a_number_and_text_is_an_error_not_a_header(tmp_path)
     p.write_text("0,warm\n1,2\n")
     with pytest.raises(ScheduleError, match=r"h.csv, row 1: value 'warm'"):
         read_table_csv(p)
+
+
+def test_the_lowest_value_is_found_at_a_corner_of_any_schedule():
+    assert Constant(-5.0).lowest() == -5.0
+    assert Ramp(20.0, -40.0, 10.0, 30.0).lowest() == -40.0
+    assert Ramp(-40.0, 20.0, 10.0, 0.0).lowest() == -40.0  # held at its start until the jump
+    assert Table([0.0, 5.0, 9.0, 20.0], [10.0, 3.0, -7.5, 4.0]).lowest() == -7.5
