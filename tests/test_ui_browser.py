@@ -21,12 +21,12 @@ import pytest
 
 sys.path.insert(0, str(Path(__file__).parent / "browser"))
 from uidriver import (
-    UiServer,
+    browse,
     choose,
     fill,
-    launch_browser,
     open_section,
     select_group,
+    serve,
     set_condition,
     settle,
     view_pixels,
@@ -74,24 +74,12 @@ def data_dir(tmp_path_factory) -> Path:
 
 @pytest.fixture(scope="module")
 def server(data_dir, shots):
-    srv = UiServer(data_dir / DEMO.name, data_dir, shots)
-    try:
-        srv.wait_ready()
-        yield srv
-    finally:
-        srv.stop()
-    assert "Traceback" not in srv.log(), srv.log()
+    yield from serve(data_dir / DEMO.name, data_dir, shots)
 
 
 @pytest.fixture(scope="module")
 def page(server):
-    with playwright_api.sync_playwright() as p:
-        browser = launch_browser(p)
-        pg = browser.new_page()
-        pg.goto(server.url)
-        pg.wait_for_selector("#hs-facts", timeout=30_000)
-        yield pg
-        browser.close()
+    yield from browse(server)
 
 
 def inside_point(case_dir: Path, case_name: str) -> list:

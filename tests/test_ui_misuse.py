@@ -12,7 +12,7 @@ from pathlib import Path
 import pytest
 
 sys.path.insert(0, str(Path(__file__).parent / "browser"))
-from uidriver import UiServer, choose, fill, launch_browser, open_section, settle, wait_for
+from uidriver import browse, choose, fill, open_section, serve, settle, wait_for
 
 pytestmark = pytest.mark.browser
 playwright_api = pytest.importorskip("playwright.sync_api")
@@ -52,25 +52,13 @@ def data_dir(tmp_path_factory) -> Path:
 
 @pytest.fixture(scope="module")
 def server(data_dir, tmp_path_factory):
-    srv = UiServer(data_dir / DEMO.name, data_dir, tmp_path_factory.mktemp("ui-misuse-log"))
-    try:
-        srv.wait_ready()
-        yield srv
-    finally:
-        srv.stop()
-    assert "Traceback" not in srv.log(), srv.log()
-    assert "exception" not in srv.log().lower(), srv.log()
+    yield from serve(data_dir / DEMO.name, data_dir, tmp_path_factory.mktemp("ui-misuse-log"),
+                     forbidden=("traceback", "exception"))
 
 
 @pytest.fixture(scope="module")
 def page(server):
-    with playwright_api.sync_playwright() as p:
-        browser = launch_browser(p)
-        pg = browser.new_page()
-        pg.goto(server.url)
-        pg.wait_for_selector("#hs-facts", timeout=30_000)
-        yield pg
-        browser.close()
+    yield from browse(server)
 
 
 def field_message(page, selector: str, text: str) -> str:

@@ -75,6 +75,32 @@ def launch_browser(playwright, width: int = 1600, height: int = 1000):
     )
 
 
+def serve(case: Path, data_dir: Path, log_dir: Path, forbidden=("traceback",)):
+    """Generator for a module fixture: a ready UI server on ``case``; after the module, it is stopped
+    and its log must hold none of the ``forbidden`` words (any case)."""
+    srv = UiServer(case, data_dir, log_dir)
+    try:
+        srv.wait_ready()
+        yield srv
+    finally:
+        srv.stop()
+    for word in forbidden:
+        assert word.lower() not in srv.log().lower(), srv.log()
+
+
+def browse(server):
+    """Generator for a module fixture: one browser page on ``server``, its mesh facts shown."""
+    from playwright.sync_api import sync_playwright
+
+    with sync_playwright() as p:
+        browser = launch_browser(p)
+        page = browser.new_page()
+        page.goto(server.url)
+        page.wait_for_selector("#hs-facts", timeout=30_000)
+        yield page
+        browser.close()
+
+
 def wait_for(predicate, timeout: float = 30.0, interval: float = 0.2, what: str = "condition"):
     end = time.time() + timeout
     while time.time() < end:
