@@ -80,7 +80,7 @@ def register_choices(panel) -> None:
         """Store an uploaded file in the work folder and open it."""
         if not hs_upload:
             return
-        state.hs_upload_error = ""
+        state.hs_upload_error = state.hs_mesh_error = ""  # a message about an earlier file no longer applies
         try:
             name, content = files.unwrap_upload(hs_upload, hint="; put large meshes in the data folder")
             path = files.save_upload(panel.work_dir / "uploads", name, content)
