@@ -35,6 +35,8 @@ class LinearSolver:
     """
 
     name = "base"
+    #: Whether ``solve`` uses its starting guess ``x0`` (Krylov solvers do; direct ones ignore it).
+    iterative = False
 
     def __init__(self, A: sp.spmatrix):
         self.A = A
@@ -155,6 +157,7 @@ class CGSolver(LinearSolver):
     """
 
     name = "cg"
+    iterative = True
 
     def __init__(self, A, preconditioner: str = "jacobi", rtol: float = RTOL, maxiter: int = 10000):
         A = sp.csr_matrix(A)

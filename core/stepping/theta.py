@@ -247,10 +247,13 @@ class ThetaMethod(Integrator):
             if self._Mfp is not None:
                 b -= self._Mfp @ ((Tp1 - Tp0) / dt)
         solver = self._solver(dt, theta)
-        if t in self._jump_times:  # rates before a jump say nothing of its slope after it
-            self._rates = self._rates[-1:]
-        dTf = solver.solve(b, x0=warm_start(self._rates, t, dt))
-        self._rates = [*self._rates[-1:], (t + 0.5 * dt, dTf / dt)]
+        if not solver.iterative:
+            dTf = solver.solve(b)
+        else:
+            if t in self._jump_times:  # rates before a jump say nothing of its slope after it
+                self._rates = self._rates[-1:]
+            dTf = solver.solve(b, x0=warm_start(self._rates, t, dt))
+            self._rates = [*self._rates[-1:], (t + 0.5 * dt, dTf / dt)]
         T_new = T.copy()
         T_new[f] = Tf + dTf
         T_new[p] = Tp1
