@@ -242,8 +242,9 @@ def _read_initial(ck: _Checker, data: dict, mesh, base_dir: Path = Path("."), un
 def _temperature_schedule(ck: _Checker, value, key: str, base_dir: Path):
     """A temperature schedule [degC] that never falls below absolute zero; None after reporting."""
     sched = ck.schedule(value, key, base_dir)
-    if sched is not None and sched.lowest() < ABSOLUTE_ZERO_C:
-        ck.add(key, f"falls to {sched.lowest():g} degC, below absolute zero ({ABSOLUTE_ZERO_C:g} degC)")
+    lowest = None if sched is None else sched.lowest()
+    if lowest is not None and lowest < ABSOLUTE_ZERO_C:
+        ck.add(key, f"falls to {lowest:g} degC, below absolute zero ({ABSOLUTE_ZERO_C:g} degC)")
         return None
     return sched
 

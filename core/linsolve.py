@@ -12,6 +12,7 @@ solvers' stopping rule is relative to the change per step, see
 from __future__ import annotations
 
 import contextlib
+import importlib
 import math
 
 import numpy as np
@@ -59,22 +60,22 @@ class DiagonalSolver(LinearSolver):
         return b / self.d
 
 
-def cholmod_available() -> bool:
-    """True when scikit-sparse's CHOLMOD can be imported (the ``fast`` extra)."""
+def _importable(module: str) -> bool:
     try:
-        import sksparse.cholmod  # noqa: F401
+        importlib.import_module(module)
     except ImportError:
         return False
     return True
+
+
+def cholmod_available() -> bool:
+    """True when scikit-sparse's CHOLMOD can be imported (the ``cholmod`` extra)."""
+    return _importable("sksparse.cholmod")
 
 
 def amg_available() -> bool:
     """True when pyamg can be imported (the ``fast`` extra): ``cg-amg`` needs it."""
-    try:
-        import pyamg  # noqa: F401
-    except ImportError:
-        return False
-    return True
+    return _importable("pyamg")
 
 
 class DirectSolver(LinearSolver):
