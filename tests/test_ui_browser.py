@@ -128,7 +128,8 @@ def test_ramp_run_animate_probe_and_export_match_the_cli(page, server, data_dir,
     page.wait_for_selector("#hs-player")
     assert "solver direct" in page.inner_text("#hs-progress-text")  # a small mesh: the exact solver
     assert "unknowns" in page.locator("#hs-solver-why").get_attribute("title")
-    assert page.locator("#hs-progress").get_attribute("aria-valuenow") in ("100", "100.0")
+    wait_for(lambda: page.locator("#hs-progress").get_attribute("aria-valuenow") in ("100", "100.0"), 15,
+             what="the progress bar to reach 100")
     page.wait_for_selector("#hs-frame-time >> text=frame 1 of")
     time.sleep(1.0)
     early = view_pixels(page, shots / "2-early-frame.png")
@@ -172,8 +173,8 @@ def test_bad_table_is_marked_at_the_field_without_traceback(page, server, shots)
     message = page.locator(".hs-editor .v-messages__message", has_text="does not increase")
     message.wait_for(timeout=15_000)
     assert "50" in message.inner_text()
-    assert page.locator("#hs-run").is_disabled()
-    assert "does not increase" in page.inner_text("#hs-run-reason")
+    page.wait_for_selector("#hs-run[disabled]", timeout=15_000)
+    page.wait_for_selector("#hs-run-reason >> text=does not increase", timeout=15_000)
     page.screenshot(path=str(shots / "5-bad-table.png"))
     open_section(page, "Start and time")
     fill(page, "#hs-step", 1e9)
@@ -237,8 +238,9 @@ def test_cancel_keeps_the_steps_done(page, server):
     wait_for(lambda: "cancelled" in page.inner_text("#hs-progress-text"), 30, what="the run to stop")
     steps = int(page.inner_text("#hs-progress-text").split(": ")[1].split(" steps")[0])
     assert 0 < steps < 100_000
-    assert "time step 20 s -> 2 s" in page.locator(".hs-run-row").last.inner_text()
-    assert "cancelled" in page.locator(".hs-run-row").last.inner_text()
+    row = page.locator(".hs-run-row").last
+    wait_for(lambda: "cancelled" in row.inner_text(), 15, what="the run list to mark the run cancelled")
+    assert "time step 20 s -> 2 s" in row.inner_text()
 
 
 def test_picture_and_animation_export(page, tmp_path):
