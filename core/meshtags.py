@@ -5,7 +5,9 @@ trusted first: integer cell arrays (``gmsh:physical`` with names from
 ``field_data``, ``medit:ref``, ``CellEntityIds``, then any other integer array
 with few distinct values; float arrays of whole numbers count as integer),
 else named cell sets (Abaqus element sets, ...). Tags without a name are
-called "region-<tag>" / "group-<tag>".
+called "region-<tag>" / "group-<tag>". gmsh's physical tag 0 means "in no
+physical group" (what gmsh writes to a msh 2.2 file without physical groups,
+or with ``Mesh.SaveAll``): such cells are untagged.
 """
 
 from __future__ import annotations
@@ -95,8 +97,20 @@ def split_blocks(raw, path: Path):
             tagged = {n: tri[labels == k] for k, n in enumerate(fnames) if n}
     if region is None:
         region, names = np.zeros(len(cells), dtype=np.int64), (UNTAGGED_REGION,)
+    warnings += _lost_physical_names(raw)
     names = tuple(n or UNSET_REGION for n in names)
     return points, cells, region, names, tagged, tuple(warnings)
+
+
+def _lost_physical_names(raw) -> list:
+    """A warning when a gmsh file names physical groups that no element carries (tag 0 everywhere)."""
+    tags = raw.cell_data.get("gmsh:physical")
+    if not raw.field_data or tags is None or any(np.asarray(a).any() for a in tags):
+        return []
+    return [
+        f"the file names physical groups ({', '.join(sorted(raw.field_data))}) but no element carries "
+        "them (gmsh writes tag 0 with Mesh.SaveAll in msh 2.2): save without SaveAll to keep the names"
+    ]
 
 
 def _whole_numbers(a: np.ndarray) -> bool:
@@ -116,6 +130,8 @@ def _integer_key(raw, blocks):
     def usable(key, limit=None):
         arrays = [np.asarray(data[key][i]) for i in blocks]
         ok = all(a.ndim == 1 and _whole_numbers(a) for a in arrays)
+        if ok and key == "gmsh:physical" and not any(a.any() for a in arrays):
+            return False  # physical tag 0 on every cell: a file without physical groups
         return ok and (limit is None or len(np.unique(np.concatenate(arrays))) <= limit)
 
     others = sorted(k for k in data if k not in TAG_KEYS + LAST_TAG_KEYS)
@@ -151,6 +167,8 @@ def _block_labels(raw, blocks, dim, prefix):
                     known[int(v[0])] = name
         values, labels = np.unique(tags, return_inverse=True)
         names = [known.get(int(t), f"{prefix}-{t}") for t in values]
+        if key == "gmsh:physical":  # gmsh writes tag 0 for cells in no physical group
+            names = ["" if t == 0 else n for t, n in zip(values, names)]
         labels, names = _merge_same_names(labels.ravel(), names)
         return labels, names, []
     return _set_labels(raw, blocks)
