@@ -19,7 +19,7 @@ from .errors import InputError, ScheduleError
 from .fieldio import read_nodal_field
 from .linsolve import SOLVERS
 from .meshread import UNITS, read_mesh, unit_scale
-from .probes import distance_to_boundary, locate
+from .probes import place
 from .problem import BOUNDARY_KINDS, MASS_KINDS, Boundary, Material, Probe, TimeSettings
 from .schedule import parse_schedule
 from .stepping import THETA_PRESETS
@@ -362,11 +362,10 @@ def _read_probes(ck: _Checker, data: dict, mesh, unit: str) -> list:
         out.append(Probe(name, np.array(at, dtype=float) * UNITS[unit], thr))
         keys.append(i)
     if mesh is not None and out:
-        cells, _ = locate(mesh, np.array([p.point for p in out]))
+        _, cells, _, dist = place(mesh, np.array([p.point for p in out]))
         for j in np.flatnonzero(cells < 0):
-            d = distance_to_boundary(mesh, out[j].point)[0] / UNITS[unit]
             ck.bad(f"probe[{keys[j]}].at", sec[keys[j]]["at"],
-                   f"the point is outside the mesh, {d:.4g} {unit} from its surface")
+                   f"the point is outside the mesh, {dist[j] / UNITS[unit]:.4g} {unit} from its surface")
     return out
 
 

@@ -50,7 +50,7 @@ def _summary(case: Case, stepper, rec: Recorder, files: ResultFiles, status: str
         },
         "probes": {p.name: {"threshold": p.threshold, "crossing_time": rec.crossings().get(p.name)}
                    for p in case.probes},
-        "warnings": list(case.mesh.warnings) + _bound_warnings(case, rec),
+        "warnings": list(case.mesh.warnings) + getattr(rec.probes, "notes", []) + _bound_warnings(case, rec),
         "energy": stepper.energy(),
         "solver": stepper.report(),
     }
@@ -199,7 +199,7 @@ def cmd_check(args) -> int:
         return 2
     print(f"ok: {args.case}")
     print("\n".join(describe_case(case)))
-    for w in case.mesh.warnings:
+    for w in [*case.mesh.warnings, *_probe_set(case).notes]:
         print(f"note      {w}")
     return 0
 

@@ -91,3 +91,90 @@ def test_cells_with_physical_tag_0_beside_tagged_ones_are_untagged(tmp_path):
     assert set(again.group_names) == {"bottom", "untagged"} and again.region_names == ("body",)
     areas = _group_areas(again)
     np.testing.assert_allclose([areas["bottom"], areas["untagged"]], [1.0, 5.0], rtol=1e-12)
+
+
+# ----------------------------------------------------------------------------- probes on curved surfaces
+
+
+def _gmsh_cylinder(path, order, size):
+    """Cylinder of radius 10 mm along x from 0 to 40 mm, coordinates in mm, one physical volume."""
+    gmsh.initialize(["", "-nopopup"])
+    try:
+        gmsh.option.setNumber("General.Terminal", 0)
+        gmsh.option.setNumber("General.NumThreads", 1)
+        gmsh.model.add("rod")
+        tag = gmsh.model.occ.addCylinder(0, 0, 0, 40, 0, 0, 10)
+        gmsh.model.occ.synchronize()
+        gmsh.model.addPhysicalGroup(3, [tag], name="rod")
+        gmsh.option.setNumber("Mesh.MeshSizeMax", size)
+        gmsh.model.mesh.generate(3)
+        if order == 2:
+            gmsh.model.mesh.setOrder(2)
+        gmsh.option.setNumber("Mesh.MshFileVersion", 4.1)
+        gmsh.write(str(path))
+    finally:
+        gmsh.finalize()
+    return path
+
+
+def _linear(x):
+    return 20.0 + 300.0 * x[..., 0] - 200.0 * x[..., 1] + 100.0 * x[..., 2]
+
+
+@pytest.mark.parametrize("order", [1, 2])
+def test_a_probe_on_the_true_curved_surface_is_read_at_the_mesh_surface(tmp_path, order):
+    from heatsoak.core.probes import ProbeSet
+
+    mesh = read_mesh(_gmsh_cylinder(tmp_path / "rod.msh", order, 5.0), "mm")
+    on_cylinder = np.array([[0.02, 0.01 * np.cos(a), 0.01 * np.sin(a)] for a in (0.1, 1.3, 2.9)])
+    probes = ProbeSet(mesh, on_cylinder, ["a", "b", "c"], unit="mm")
+    moved = np.linalg.norm(probes.points - on_cylinder, axis=1)
+    # a faceted circle lies inside the true one by at most the sagitta h^2 / (8 R) (elementary
+    # geometry): 0.31 mm at h = 5 mm, R = 10 mm; quadratic faces follow it far closer
+    assert moved.max() <= (0.32e-3 if order == 1 else 0.02e-3)
+    assert len(probes.notes) == int((moved > 0).sum()) and all("outside the mesh surface" in n for n in probes.notes)
+    # the moved point is read exactly: a linear field is in both element spaces (common practice, no source)
+    np.testing.assert_allclose(probes.values(_linear(mesh.points)), _linear(probes.points), atol=1e-9)
+
+
+def test_a_point_in_the_bulge_of_a_curved_cell_is_found_without_moving_it(tmp_path):
+    from heatsoak.core.elements import tet_basis
+    from heatsoak.core.probes import ProbeSet, locate
+
+    mesh = read_mesh(_gmsh_cylinder(tmp_path / "rod.msh", 2, 6.0), "mm")
+    # a point just inside the curved face of each boundary cell, through the cell's own map
+    cell = mesh.face_cell
+    opposite = ~(mesh.cells[cell, :4][:, :, None] == mesh.faces[:, None, :3]).any(axis=2)  # vertex off the face
+    lam = np.where(opposite, 0.01, 0.33)  # reference coordinates [1 - sum(xi), xi], 1% off the face
+    pts = np.einsum("ka,kad->kd", tet_basis(2, lam[:, 1:])[0], mesh.points[mesh.cells[cell]])
+    found, _ = locate(mesh, pts)
+    assert (found >= 0).all()
+    probes = ProbeSet(mesh, pts, [f"p{i}" for i in range(len(pts))])
+    assert probes.notes == [] and np.array_equal(probes.points, pts)
+    np.testing.assert_allclose(probes.values(_linear(mesh.points)), _linear(pts), atol=1e-9)
+
+
+def test_check_and_run_say_where_a_moved_probe_is_read(tmp_path, capsys):
+    import json
+
+    import tomli_w
+
+    _gmsh_cylinder(tmp_path / "rod.msh", 1, 5.0)
+    case = {
+        "mesh": {"file": "rod.msh", "unit": "mm"},
+        "material": {"rod": {"density": 1000, "specific_heat": 1000, "conductivity": 10}},
+        "initial": {"temperature": 20},
+        "time": {"end": 10, "step": 5},
+        "probe": [{"name": "skin", "at": [20, 7.648, 6.442]}, {"name": "away", "at": [20, 0, 13]}],
+    }
+    path = tmp_path / "case.toml"
+    path.write_text(tomli_w.dumps(case), encoding="utf-8")
+    code, _, err = _cli(capsys, "check", path)
+    assert code == 2 and "probe[1].at" in err and "outside the mesh, 3" in err and "probe[0]" not in err
+    case["probe"].pop()
+    path.write_text(tomli_w.dumps(case), encoding="utf-8")
+    code, out, _ = _cli(capsys, "check", path)
+    assert code == 0 and "note      probe 'skin' at (20, 7.648, 6.442) mm lies" in out
+    code, out, _ = _cli(capsys, "run", path, "--out", tmp_path / "res", "--quiet")
+    summary = json.loads((tmp_path / "res" / "summary.json").read_text())
+    assert code == 0 and any(w.startswith("probe 'skin'") for w in summary["warnings"])
