@@ -17,9 +17,9 @@ from heatsoak.core.materials import LIBRARY
 #: Boundary kinds offered, (value, label, unit of the schedule).
 KINDS = (
     ("insulated", "Insulated (no heat flow)", ""),
-    ("temperature", "Temperature (Dirichlet)", "degC"),
-    ("heat_flux", "Heat flux into the body (Neumann)", "W/m2"),
-    ("convection", "Convection to ambient (Robin)", "degC"),
+    ("temperature", "Temperature (Dirichlet)", "°C"),
+    ("heat_flux", "Heat flux into the body (Neumann)", "W/m²"),
+    ("convection", "Convection to ambient (Robin)", "°C"),
 )
 SHAPES = (("constant", "Constant"), ("ramp", "Ramp"), ("table", "Table"))
 KIND_UNITS = {k: u for k, _, u in KINDS}
@@ -160,15 +160,17 @@ def case_from_forms(mesh: dict, bcs: dict, materials: dict, initial, time: dict,
     case["initial"] = {"temperature": attempt(_number, initial, "initial.temperature")}
     case["time"] = {k: attempt(_number, time.get(k), f"time.{k}") for k in ("end", "step", "theta")}
     case["time"]["mass"] = time.get("mass", "consistent")
-    case["probe"] = [p for p in (attempt(probe_entry, p) for p in probes) if p]
+    # keyed by position, as the core checks key them, so the message lands on the probe's row
+    case["probe"] = [p for p in (attempt(probe_entry, p, f"probe[{i}]") for i, p in enumerate(probes)) if p]
     case["output"] = {"every": attempt(_whole, every, "output.every")}
     return case, errors
 
 
-def probe_entry(form: dict) -> dict:
-    """One ``[[probe]]`` table from a probe form (coordinates in the mesh unit)."""
+def probe_entry(form: dict, key: str | None = None) -> dict:
+    """One ``[[probe]]`` table from a probe form (coordinates in the mesh unit); errors are keyed
+    ``key`` (default ``probe.<name>``), e.g. ``probe[2]`` for the third probe of a case."""
     name = str(form.get("name", "")).strip()
-    key = f"probe.{name or '?'}"
+    key = key or f"probe.{name or '?'}"
     if not name:
         raise FormError(key, "a probe needs a name")
     entry = {"name": name, "at": [_number(form.get(c), f"{key}.{c}") for c in ("x", "y", "z")]}
@@ -205,7 +207,9 @@ def issues_by_field(issues) -> dict:
     """``{field key: [messages]}`` from Issue(key, message) objects or FormErrors."""
     out: dict = {}
     for issue in issues:
-        out.setdefault(field_key(issue.key), []).append(short_message(issue.key, str(issue.message)))
+        message = short_message(issue.key, str(issue.message))
+        part = re.match(r"probe\[\d+\]\.(\w+)", str(issue.key))  # a probe row has one message line: name the entry
+        out.setdefault(field_key(issue.key), []).append(f"{part.group(1)}: {message}" if part else message)
     return out
 
 

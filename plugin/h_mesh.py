@@ -19,7 +19,7 @@ def register(panel) -> None:
     state, ctrl = panel.state, panel.ctrl
     state.update({
         "hs_dir": "", "hs_files": [], "hs_mesh_name": "", "hs_unit": "m", "hs_units": list(UNITS),
-        "hs_feature_angle": 30.0, "hs_facts": None, "hs_mesh_error": "", "hs_upload": None,
+        "hs_feature_angle": 30.0, "hs_unit_from": "", "hs_facts": None, "hs_mesh_error": "", "hs_upload": None,
         "hs_upload_error": "", "hs_max_upload_mb": files.MAX_UPLOAD_BYTES // 1_000_000,
     })
 
@@ -44,7 +44,7 @@ def register(panel) -> None:
         except InputError as exc:
             state.hs_mesh_error = str(exc)
             return
-        (open_case if kind == "case" else open_mesh)(panel, target)
+        (open_case if kind == "case" else open_bare_mesh)(panel, target)
 
     @ctrl.set("hs_up_dir")
     def up_dir():
@@ -62,8 +62,10 @@ def register_choices(panel) -> None:
     @ctrl.set("hs_set_unit")
     def set_unit(unit):
         """The user says which length unit the file is in: read it again."""
-        state.hs_unit = unit
-        reload_mesh(panel)
+        previous = state.hs_unit, state.hs_unit_from
+        state.hs_unit, state.hs_unit_from = unit, "as chosen"
+        if panel.mesh_path is not None and not open_mesh(panel, panel.mesh_path, keep_forms=True):
+            state.hs_unit, state.hs_unit_from = previous  # the mesh still open was read in this one
 
     @ctrl.set("hs_set_angle")
     def set_angle(angle):
@@ -87,13 +89,29 @@ def register_choices(panel) -> None:
         except InputError as exc:
             state.hs_upload_error = str(exc)
             return
-        (open_case if path.suffix == ".toml" else open_mesh)(panel, path)
+        (open_case if path.suffix == ".toml" else open_bare_mesh)(panel, path)
 
 
 def reload_mesh(panel) -> None:
     """Read the mesh again with the unit and feature angle now set."""
     if panel.mesh_path is not None:
         open_mesh(panel, panel.mesh_path, keep_forms=True)
+
+
+#: What the facts table says of the unit of a mesh file opened on its own.
+BARE_UNIT_NOTE = "the file states no unit: choose the one it was drawn in"
+
+
+def open_bare_mesh(panel, path: Path) -> bool:
+    """Open a mesh file on its own: it holds no unit, so it is read in metres (as a case file
+    without ``mesh.unit``), whatever the case opened before said; the facts table says so."""
+    state = panel.state
+    previous = state.hs_unit, state.hs_unit_from
+    state.hs_unit, state.hs_unit_from = "m", BARE_UNIT_NOTE
+    if not open_mesh(panel, path):
+        state.hs_unit, state.hs_unit_from = previous  # the mesh still open was read in this one
+        return False
+    return True
 
 
 def open_mesh(panel, path: Path, keep_forms: bool = False) -> bool:
@@ -145,10 +163,11 @@ def open_case(panel, path: Path) -> bool:
     if mesh_path is None or not mesh_path.is_file():
         state.hs_mesh_error = f"{Path(path).name}: mesh.file {mesh_sec.get('file')!r} not found next to the case"
         return False
-    previous = state.hs_unit, state.hs_feature_angle
+    previous = state.hs_unit, state.hs_feature_angle, state.hs_unit_from
     state.hs_unit, state.hs_feature_angle = str(mesh_sec.get("unit", "m")), float(angle)
+    state.hs_unit_from = f"from {Path(path).name}" if "unit" in mesh_sec else f"{Path(path).name} names none: metres"
     if not open_mesh(panel, mesh_path):
-        state.hs_unit, state.hs_feature_angle = previous  # the mesh open now was read with these
+        state.hs_unit, state.hs_feature_angle, state.hs_unit_from = previous  # the open mesh was read with these
         state.hs_mesh_error = f"{Path(path).name}: {state.hs_mesh_error}"
         return False
     fill_forms_from_case(panel, data, Path(path).parent)

@@ -11,7 +11,7 @@ import asyncio
 import numpy as np
 
 from . import plots
-from .scene import DIFFERENCE_CMAP, TEMPERATURE_CMAP, UNIT_LABEL
+from .scene import DIFFERENCE_CMAP, DIFFERENCE_LABEL, TEMPERATURE_CMAP, UNIT_LABEL
 
 SPEEDS = (1, 2, 5, 10, 20)
 AXES = {"x": (1.0, 0.0, 0.0), "y": (0.0, 1.0, 0.0), "z": (0.0, 0.0, 1.0)}
@@ -134,7 +134,7 @@ def build_field(panel) -> None:
         clip = (AXES[state.hs_clip_axis], tuple(origin))
     diff = panel.runs.get(state.hs_diff_run) if state.hs_diff_run != run.id else None
     diff = diff if diff is not None and diff.mesh is run.mesh else None
-    title = f"{UNIT_LABEL.split(' [')[0]} difference [K]" if diff else UNIT_LABEL
+    title = DIFFERENCE_LABEL if diff else UNIT_LABEL
     panel.scene.show_field(clip=clip, cmap=DIFFERENCE_CMAP if diff else TEMPERATURE_CMAP, title=title)
     state.hs_n_frames = len(run.series)
     state.hs_frame = min(int(state.hs_frame or 0), state.hs_n_frames - 1)

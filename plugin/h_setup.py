@@ -7,6 +7,8 @@ forms of every group and region live on the panel (``panel.bcs``,
 
 from __future__ import annotations
 
+import re
+
 import numpy as np
 from heatsoak.core.case import check_case_data
 from heatsoak.core.errors import InputError
@@ -192,12 +194,13 @@ def _differs(a, b) -> bool:
         return True
 
 
-def _readable(probe: dict) -> bool:
+def _placeable(probe: dict) -> bool:
+    """Whether the probe's position reads as three numbers (it is marked in 3D even if another entry is wrong)."""
     try:
-        probe_entry(probe)
-    except FormError:
+        [float(probe[c]) for c in "xyz"]
+    except (KeyError, TypeError, ValueError):
         return False
-    return True
+    return all(np.isfinite(float(probe[c])) for c in "xyz")
 
 
 def next_probe_name(probes) -> str:
@@ -227,6 +230,7 @@ def mesh_changed(panel, keep_forms: bool = False) -> None:
     panel.bcs = {g: old_bcs.get(g, default_bc()) for g in mesh.group_names}
     panel.mats = {r: old_mats.get(r, material_form(DEFAULT_MATERIAL)) for r in mesh.region_names}
     if not keep_forms:
+        state.hs_probe_error = ""  # it spoke of a probe typed for the mesh before
         state.hs_probes = []
         state.hs_p_name = "P1"
         state.hs_case_name = ""
@@ -278,7 +282,7 @@ def probes_changed(panel) -> None:
     state = panel.state
     if panel.mesh is not None:
         scale = UNITS.get(state.hs_unit, 1.0)
-        shown = [p for p in state.hs_probes if _readable(p)]  # a case file may hold unreadable ones
+        shown = [p for p in state.hs_probes if _placeable(p)]  # a case file may hold unreadable ones
         pts = [[float(p[c]) * scale for c in "xyz"] for p in shown]
         panel.scene.show_probes(np.array(pts).reshape(-1, 3), [p["name"] for p in shown])
         panel.update_view()
@@ -306,7 +310,7 @@ def validate(panel) -> list:
     if not form_errors:
         issues += check_case_data(case, panel.case_dir, mesh=panel.mesh)
     state.hs_err = issues_by_field(issues)
-    state.hs_run_reason = _reason(issues[0]) if issues else ""
+    state.hs_run_reason = _name_probes(_reason(issues[0]), state.hs_probes) if issues else ""
     state.hs_groups = group_rows(panel, state.hs_err)
     return issues
 
@@ -315,6 +319,14 @@ def _reason(issue) -> str:
     if isinstance(issue, FormError):  # its message lacks the key: name the field
         return f"Fix first: {issue.key} - {issue.message}"
     return f"Fix first: {issue}".replace(f"{issue.key}: ", f"{issue.key} - ", 1)
+
+
+def _name_probes(text: str, probes: list) -> str:
+    """``probe[1]`` in a message followed by the probe's name, as the probe list shows it."""
+    def named(match):
+        i = int(match.group(1))
+        return f"{match.group(0)} ({probes[i]['name']})" if i < len(probes) else match.group(0)
+    return re.sub(r"probe\[(\d+)\](\.\w+)?", named, text)
 
 
 def group_rows(panel, errors: dict) -> list:

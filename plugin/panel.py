@@ -63,7 +63,7 @@ class HeatPanel:
     def open_path(self, path) -> bool:
         """Open a mesh file or a case file (``.toml``) from anywhere the app was told to."""
         path = Path(path)
-        opener = h_mesh.open_case if path.suffix.lower() == ".toml" else h_mesh.open_mesh
+        opener = h_mesh.open_case if path.suffix.lower() == ".toml" else h_mesh.open_bare_mesh
         return opener(self, path)
 
     # ----------------------------------------------------------- view sync

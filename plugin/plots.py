@@ -60,7 +60,7 @@ def schedule_svg(times, values, unit: str, window: float | None = None, width: f
     return _svg(fig)
 
 
-def curves_svg(series, ylabel: str = "Temperature [degC]", thresholds=(), marks=(), width: float = 5.2,
+def curves_svg(series, ylabel: str = "Temperature [°C]", thresholds=(), marks=(), width: float = 5.2,
                height: float = 2.3) -> str:
     """Several curves against time.
 

@@ -21,7 +21,9 @@ FADED = np.array([0.86, 0.87, 0.85])
 #: Colour maps: perceptually uniform for temperature, diverging for differences.
 TEMPERATURE_CMAP = "cividis"
 DIFFERENCE_CMAP = "coolwarm"
-UNIT_LABEL = "Temperature [degC]"
+UNIT_LABEL = "T [°C]"
+#: Title of the colour bar of a difference between two runs.
+DIFFERENCE_LABEL = "Difference [K]"
 
 
 def group_colour(i: int) -> str:
@@ -191,9 +193,9 @@ class Scene:
         self._actors["groups"].visibility = False
         self._actors["result"] = self.plotter.add_mesh(
             shown, scalars="T", cmap=cmap, clim=clim, name="result", show_edges=False,
-            pickable=True, scalar_bar_args={"title": title, "vertical": True, "fmt": "%.0f",
-                                           "position_x": 0.86, "position_y": 0.2, "height": 0.6,
-                                           "color": "#2d3331", "title_font_size": 14, "label_font_size": 12},
+            pickable=True, scalar_bar_args={"title": title, "vertical": True, "fmt": "%.4g",
+                                           "position_x": 0.84, "position_y": 0.2, "height": 0.6,
+                                           "color": "#2d3331", "title_font_size": 13, "label_font_size": 12},
         )
 
     @staticmethod

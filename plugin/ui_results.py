@@ -34,7 +34,7 @@ def player(panel) -> None:
     """Play, pause, step, scrub, loop, speed, colour range, clip plane, difference."""
     ctrl = panel.ctrl
     with html.Div(classes="hs-player px-3 py-1", v_if="hs_runs.length", id="hs-player"):
-        with html.Div(classes="d-flex align-center ga-2"):
+        with html.Div(classes="d-flex align-center ga-2 flex-wrap"):
             with v3.VBtnToggle(v_model=("hs_view",), density="compact", mandatory=True, divided=True,
                                variant="outlined", color="#2f5d50", id="hs-view-mode"):
                 v3.VBtn("set-up", value="setup", size="small")
@@ -48,17 +48,19 @@ def player(panel) -> None:
                     disabled=("hs_view != 'results'",))
             v3.VSlider(v_model=("hs_frame",), min=0, max=("Math.max(hs_n_frames - 1, 0)",), step=1,
                        hide_details=True, density="compact", color="#2f5d50", classes="flex-grow-1 mx-2",
-                       id="hs-scrub", disabled=("hs_view != 'results'",))
+                       style="min-width: 220px", id="hs-scrub", disabled=("hs_view != 'results'",))
             html.Span("{{ hs_frame_time }}", classes="text-caption hs-time", id="hs-frame-time")
         with html.Div(classes="d-flex align-center ga-3 flex-wrap"):
             v3.VCheckbox(v_model=("hs_loop",), label="loop", density="compact", hide_details=True)
             v3.VSelect(v_model=("hs_speed",), items=("hs_speeds",), label="frames/s", density="compact",
-                       variant="outlined", hide_details=True, style="max-width: 100px")
+                       variant="outlined", hide_details=True, style="min-width: 110px; max-width: 110px")
             with v3.VBtnToggle(v_model=("hs_range_mode",), density="compact", mandatory=True, divided=True,
                                variant="outlined", color="#2f5d50", id="hs-range-mode"):
                 v3.VBtn("range: whole run", value="fixed", size="small")
                 v3.VBtn("range: this frame", value="auto", size="small")
-            html.Span("{{ hs_range[0] }} … {{ hs_range[1] }}", classes="text-caption", id="hs-range")
+            with html.Span(classes="text-caption"):
+                html.Span("{{ hs_range[0] }} … {{ hs_range[1] }}", id="hs-range")
+                html.Span(" {{ hs_diff_run == null ? '°C' : 'K' }}", id="hs-range-unit")
             v3.VSwitch(v_model=("hs_clip",), label="clip", density="compact", hide_details=True, color="#2f5d50",
                        id="hs-clip")
             v3.VSelect(v_if="hs_clip", v_model=("hs_clip_axis",), items=("['x', 'y', 'z']",), density="compact",

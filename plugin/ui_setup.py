@@ -29,6 +29,9 @@ def mesh_section(panel) -> None:
                 v3.VBtn(icon="mdi-arrow-up", size="x-small", variant="text", click=ctrl.hs_up_dir,
                         disabled=("!hs_dir",), id="hs-up")
                 html.Span("Data folder{{ hs_dir ? ' / ' + hs_dir : '' }}", classes="text-caption")
+                v3.VSpacer()
+                v3.VBtn(icon="mdi-refresh", size="x-small", variant="text", click=ctrl.hs_refresh_files,
+                        title="List the folder again (files added since)", id="hs-refresh-files")
             with v3.VList(density="compact", classes="hs-files", max_height=170, id="hs-files"):
                 v3.VListItem(v_for="f in hs_files", key="f.path", title=("f.name",), prepend_icon=(FILE_ICON,),
                              click=(ctrl.hs_open, "[f.path, f.kind]"), active=("hs_mesh_name == f.name",),
@@ -41,7 +44,7 @@ def mesh_section(panel) -> None:
                       density="compact", classes="my-2", id="hs-mesh-error")
             with html.Div(classes="d-flex ga-2"):
                 v3.VSelect(model_value=("hs_unit",), items=("hs_units",), label="Length unit of the file",
-                           density="compact", variant="outlined", hide_details=True,
+                           density="compact", variant="outlined", hide_details=True, style="min-width: 190px",
                            update_modelValue=(ctrl.hs_set_unit, "[$event]"), id="hs-unit")
                 v3.VTextField(model_value=("hs_feature_angle",), label="Feature angle", suffix="deg",
                               density="compact", variant="outlined", hide_details=True, type="number",
@@ -56,6 +59,7 @@ def facts() -> None:
         with v3.VTable(density="compact"):
             with html.Tbody():
                 _fact("File", "hs_mesh_name")
+                _fact("Read in", "hs_unit + (hs_unit_from ? ' · ' + hs_unit_from : '')", id="hs-fact-unit")
                 _fact("Nodes", "hs_facts.nodes.toLocaleString()")
                 _fact("Elements", "hs_facts.elements.toLocaleString() + (hs_facts.element_order == 2 ? "
                                   "' quadratic tetrahedra' : ' linear tetrahedra')")
@@ -67,8 +71,8 @@ def facts() -> None:
                   density="compact", classes="mt-1 text-caption")
 
 
-def _fact(label: str, expr: str) -> None:
-    with html.Tr():
+def _fact(label: str, expr: str, **kwargs) -> None:
+    with html.Tr(**kwargs):
         html.Td(label, classes="text-caption hs-fact-label")
         html.Td(f"{{{{ {expr} }}}}", classes="text-caption")
 
@@ -87,7 +91,7 @@ def surfaces_section(panel) -> None:
                 with v3.Template(v_slot_prepend=True):
                     html.Span(classes="hs-swatch", style=("`background:${g.color}`",))
                 v3.VListItemTitle("{{ g.name }}", classes="text-body-2")
-                v3.VListItemSubtitle("{{ g.summary }} · {{ (g.area * 1e6).toPrecision(3) }} mm²")
+                v3.VListItemSubtitle("{{ g.summary }} · {{ Number((g.area * 1e6).toPrecision(3)).toLocaleString() }} mm²")
                 with v3.Template(v_slot_append=True):
                     v3.VIcon("mdi-alert-circle", v_if="g.bad", color="#b3261e", size="small")
         condition_editor(panel)
@@ -171,16 +175,18 @@ def probes_section(panel) -> None:
             with html.Thead(), html.Tr():
                 for h in ("Name", "Position ({{ hs_unit }})", "Threshold", ""):
                     html.Th(h, classes="text-caption")
-            with html.Tbody(), html.Tr(v_for="(p, i) in hs_probes", key="p.name"):
-                html.Td("{{ p.name }}", classes="text-caption")
-                html.Td("{{ [p.x, p.y, p.z].map(v => Number(v).toPrecision(4)).join(', ') }}",
-                        classes="text-caption")
-                html.Td("{{ p.threshold == null ? '–' : p.threshold + ' °C' }}", classes="text-caption")
-                with html.Td():
-                    v3.VBtn(icon="mdi-close", size="x-small", variant="text",
-                            click=(ctrl.hs_remove_probe, "[p.name]"))
-                html.Td("{{ (hs_err['probe.' + i] || []).join(' ') }}", v_if="hs_err['probe.' + i]",
-                        classes="text-caption text-error")
+            with html.Tbody(), v3.Template(v_for="(p, i) in hs_probes", key="p.name"):
+                with html.Tr(classes=("hs_err['probe.' + i] ? 'hs-probe-bad' : ''",)):
+                    html.Td("{{ p.name }}", classes="text-caption")
+                    html.Td("{{ [p.x, p.y, p.z].map(v => Number(v).toPrecision(4)).join(', ') }}",
+                            classes="text-caption")
+                    html.Td("{{ p.threshold == null ? '–' : p.threshold + ' °C' }}", classes="text-caption")
+                    with html.Td():
+                        v3.VBtn(icon="mdi-close", size="x-small", variant="text",
+                                click=(ctrl.hs_remove_probe, "[p.name]"))
+                with html.Tr(v_if="hs_err['probe.' + i]", classes="hs-probe-issue"):
+                    html.Td("{{ p.name }} · {{ hs_err['probe.' + i].join(' ') }}", colspan=4,
+                            classes="text-caption text-error")
         with v3.VRow(dense=True):
             with v3.VCol(cols=4):
                 number("hs_p_name", "Name", id="hs-p-name")
