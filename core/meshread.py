@@ -277,11 +277,16 @@ def _as_arrays(points, cells, cell_region, region_names, where):
 
 
 def _drop_duplicates(cells, cell_region, notes):
-    """Keep the first of elements with the same vertex set."""
-    first, _, _ = unique_rows(np.sort(cells[:, :4], axis=1))
-    keep = np.sort(first)
+    """Keep one of elements with the same vertex set: the one in the smallest region, the first
+    of equal ones (gmsh's msh 2.2 lists an element once per physical group it is in)."""
+    size = np.bincount(cell_region)[cell_region]
+    perm = np.lexsort((np.arange(len(cells)), size))
+    first, inverse, _ = unique_rows(np.sort(cells[perm, :4], axis=1))
+    keep = np.sort(perm[first])
     if len(keep) < len(cells):
-        notes.append(f"dropped {len(cells) - len(keep)} duplicate elements (same nodes as another element)")
+        mixed = (cell_region[perm] != cell_region[perm[first]][inverse]).any()
+        why = "; one listed in several regions is kept in the smallest" if mixed else ""
+        notes.append(f"dropped {len(cells) - len(keep)} duplicate elements (same nodes as another element){why}")
     return cells[keep], cell_region[keep], keep
 
 

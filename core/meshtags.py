@@ -157,6 +157,8 @@ def _block_labels(raw, blocks, dim, prefix):
     notes : list of str
     """
     key = _integer_key(raw, blocks)
+    if key == "gmsh:physical" and _sets_overlap(raw, blocks):
+        return _set_labels(raw, blocks)  # meshio's gmsh:physical keeps only an entity's first group
     if key is not None:
         tags = np.concatenate([np.asarray(raw.cell_data[key][i], dtype=np.int64) for i in blocks])
         known = {}
@@ -174,6 +176,24 @@ def _block_labels(raw, blocks, dim, prefix):
     return _set_labels(raw, blocks)
 
 
+def _named_sets(raw):
+    """The file's named cell sets with one entry per cell block (gmsh's own sets left out)."""
+    return {name: per_block for name, per_block in raw.cell_sets.items()
+            if not name.startswith("gmsh:") and len(per_block) == len(raw.cells)}
+
+
+def _sets_overlap(raw, blocks) -> bool:
+    """True when a cell of ``blocks`` is in two named cell sets (gmsh groups sharing an entity)."""
+    for i in blocks:
+        count = np.zeros(len(raw.cells[i].data), dtype=np.int64)
+        for per_block in _named_sets(raw).values():
+            if per_block[i] is not None:
+                np.add.at(count, np.asarray(per_block[i], dtype=np.int64), 1)
+        if (count > 1).any():
+            return True
+    return False
+
+
 def _merge_same_names(labels, names):
     """Give cells whose tags share a name one label; keep first-seen order."""
     unique, first, inverse = np.unique(names, return_index=True, return_inverse=True)
@@ -188,9 +208,7 @@ def _set_labels(raw, blocks):
     sizes = [len(blocks_data) for blocks_data in (raw.cells[i].data for i in blocks)]
     offsets = np.concatenate([[0], np.cumsum(sizes)])
     members = {}
-    for name, per_block in raw.cell_sets.items():
-        if name.startswith("gmsh:") or len(per_block) != len(raw.cells):
-            continue
+    for name, per_block in _named_sets(raw).items():
         idx = [
             np.asarray(per_block[i], dtype=np.int64) + offsets[k]
             for k, i in enumerate(blocks)
@@ -203,12 +221,16 @@ def _set_labels(raw, blocks):
         return None, (), []
     names = list(members)
     labels = np.full(offsets[-1], -1, dtype=np.int64)
-    for k in sorted(range(len(names)), key=lambda k: -len(members[names[k]])):
+    for k in sorted(range(len(names)), key=lambda k: (-len(members[names[k]]), -k)):
         labels[members[names[k]]] = k
     notes = []
     if sum(len(m) for m in members.values()) > len(np.unique(np.concatenate(list(members.values())))):
-        notes.append(f"element sets overlap ({', '.join(names)}); each element is put in the smallest set")
+        notes.append(f"element sets overlap ({', '.join(names)}); each element is put in the smallest set "
+                     "(the first listed of equal ones)")
     kept = np.unique(labels[labels >= 0])
+    emptied = [n for k, n in enumerate(names) if k not in set(kept.tolist())]
+    if emptied:
+        notes.append(f"sets left with no element of their own by smaller ones (not used): {', '.join(emptied)}")
     if (labels < 0).any():
         labels[labels < 0] = len(names)
         names.append("")

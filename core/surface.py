@@ -173,7 +173,8 @@ def match_tagged_faces(
     ----------
     face_keys : (n_faces, 3) int, sorted vertex indices of the boundary faces
     tagged : dict name -> (k, >=3) int array of triangles (vertex nodes first);
-        a triangle named twice keeps the later name.
+        a triangle in several groups goes to the smallest (fewest triangles; the
+        first listed of equal ones), and ``notes`` says the groups overlap.
     interior_keys : (m, 3) int, sorted vertex sets of internal faces, only to
         tell the user which unmatched triangles lie inside the body.
 
@@ -189,13 +190,23 @@ def match_tagged_faces(
     all_keys = np.vstack([face_keys, *tri, np.empty((0, 3), np.int64)])
     _, inverse, _ = unique_rows(all_keys)
     n_faces = len(face_keys)
-    label_of_key = np.full(inverse.max() + 1 if len(inverse) else 0, -1, dtype=np.int64)
-    label_of_key[inverse[n_faces:]] = tri_label
+    n_keys = inverse.max() + 1 if len(inverse) else 0
+    order = np.lexsort((np.arange(len(names)), [len(t) for t in tri]))  # smallest group first
+    priority = np.empty(len(names), dtype=np.int64)
+    priority[order] = np.arange(len(names))
+    best = np.full(n_keys, len(names), dtype=np.int64)
+    np.minimum.at(best, inverse[n_faces:], priority[tri_label])
+    label_of_key = np.append(order, -1)[best]
     face_group = label_of_key[inverse[:n_faces]]
     on_boundary = np.zeros(label_of_key.shape, dtype=bool)
     on_boundary[inverse[:n_faces]] = True
     off = ~on_boundary[inverse[n_faces:]]
     notes = list(_unmatched_notes(tri, tri_label, off, names, interior_keys))
+    shared = label_of_key[inverse[n_faces:]] != tri_label
+    if shared.any():
+        listed = ", ".join(names[i] for i in np.unique(np.append(tri_label[shared], label_of_key[inverse[n_faces:]][shared])))
+        notes.append(f"surface groups overlap ({listed}); each shared face is put in the smallest group "
+                     "(the first listed of equal ones)")
 
     used = np.unique(face_group[face_group >= 0])
     dropped = [names[i] for i in range(len(names)) if i not in set(used.tolist())]

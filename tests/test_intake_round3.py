@@ -178,3 +178,48 @@ def test_check_and_run_say_where_a_moved_probe_is_read(tmp_path, capsys):
     code, out, _ = _cli(capsys, "run", path, "--out", tmp_path / "res", "--quiet")
     summary = json.loads((tmp_path / "res" / "summary.json").read_text())
     assert code == 0 and any(w.startswith("probe 'skin'") for w in summary["warnings"])
+
+
+# ----------------------------------------------------------------------------- overlapping physical groups
+
+
+def _overlapping_groups(path, version):
+    """Unit boxes [0,1] and [1,2] along x; physical volumes "all" (both) and "insert" (the second),
+    physical surfaces "ends" (x = 0 and x = 2) and "left" (x = 0): groups that share entities."""
+    gmsh.initialize(["", "-nopopup"])
+    try:
+        gmsh.option.setNumber("General.Terminal", 0)
+        gmsh.option.setNumber("General.NumThreads", 1)
+        gmsh.model.add("bar")
+        a, b = gmsh.model.occ.addBox(0, 0, 0, 1, 1, 1), gmsh.model.occ.addBox(1, 0, 0, 1, 1, 1)
+        gmsh.model.occ.fragment([(3, a)], [(3, b)])
+        gmsh.model.occ.synchronize()
+        gmsh.model.addPhysicalGroup(3, [a, b], name="all")
+        gmsh.model.addPhysicalGroup(3, [b], name="insert")
+        x0, x2 = ([t for _, t in gmsh.model.getEntitiesInBoundingBox(x - 1e-6, -1, -1, x + 1e-6, 2, 2, dim=2)]
+                  for x in (0.0, 2.0))
+        gmsh.model.addPhysicalGroup(2, x0 + x2, name="ends")
+        gmsh.model.addPhysicalGroup(2, x0, name="left")
+        gmsh.option.setNumber("Mesh.MeshSizeMax", 0.5)
+        gmsh.model.mesh.generate(3)
+        gmsh.option.setNumber("Mesh.MshFileVersion", version)
+        gmsh.option.setNumber("Mesh.Binary", 0)
+        gmsh.write(str(path))
+    finally:
+        gmsh.finalize()
+    return path
+
+
+@pytest.mark.parametrize("version", [2.2, 4.1])
+def test_overlapping_physical_groups_give_each_shared_cell_to_the_smaller_group(tmp_path, version):
+    # msh 2.2 repeats an element once per group, meshio's msh 4.1 reading tags an entity with its
+    # first group only: both must give the same mesh, with no group silently lost
+    from heatsoak.core.topology import signed_volumes
+
+    mesh = read_mesh(_overlapping_groups(tmp_path / "bar.msh", version))
+    volume = np.bincount(mesh.cell_region, weights=signed_volumes(mesh.points, mesh.cells))
+    regions = dict(zip(mesh.region_names, volume))
+    np.testing.assert_allclose([regions["all"], regions["insert"]], [1.0, 1.0], rtol=1e-12)  # unit boxes
+    areas = _group_areas(mesh)
+    np.testing.assert_allclose([areas["left"], areas["ends"], areas["untagged"]], [1.0, 1.0, 8.0], rtol=1e-12)
+    assert any("overlap (" in w and "ends" in w and "left" in w for w in mesh.warnings)
