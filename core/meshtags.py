@@ -4,10 +4,11 @@ Volume regions and surface groups come from the tags a file carries, most
 trusted first: integer cell arrays (``gmsh:physical`` with names from
 ``field_data``, ``medit:ref``, ``CellEntityIds``, then any other integer array
 with few distinct values; float arrays of whole numbers count as integer),
-else named cell sets (Abaqus element sets, ...). Tags without a name are
-called "region-<tag>" / "group-<tag>". gmsh's physical tag 0 means "in no
-physical group" (what gmsh writes to a msh 2.2 file without physical groups,
-or with ``Mesh.SaveAll``): such cells are untagged.
+else named cell sets (Abaqus element sets, ...); the set names meshio joins
+into one array's name when it writes sets to VTU, XDMF, ... are read back.
+Tags without a name are called "region-<tag>" / "group-<tag>". gmsh's
+physical tag 0 means "in no physical group" (what gmsh writes to a msh 2.2
+file without physical groups, or with ``Mesh.SaveAll``): such cells are untagged.
 """
 
 from __future__ import annotations
@@ -161,7 +162,7 @@ def _block_labels(raw, blocks, dim, prefix):
         return _set_labels(raw, blocks)  # meshio's gmsh:physical keeps only an entity's first group
     if key is not None:
         tags = np.concatenate([np.asarray(raw.cell_data[key][i], dtype=np.int64) for i in blocks])
-        known = {}
+        known = _joined_set_names(raw, key)
         if key == "gmsh:physical":
             for name, value in raw.field_data.items():
                 v = np.asarray(value).ravel()
@@ -192,6 +193,28 @@ def _sets_overlap(raw, blocks) -> bool:
         if (count > 1).any():
             return True
     return False
+
+
+#: Characters meshio joins cell set names with when it writes them as one cell array (its order).
+JOIN_CHARS = ("-", "_", "#", "+", "/")
+
+
+def _joined_set_names(raw, key: str) -> dict:
+    """Names of the values of a cell array that meshio made from named cell sets, else {}.
+
+    A format without cell sets (VTU, XDMF, ...) gets them from meshio as one integer array
+    named by the set names joined with a character none of them holds; each cell holds its
+    set's index, -1 when it is in none. The names are read back only when the values are
+    exactly those indices, every set used, for one joining character only (two would make
+    the names ambiguous).
+    """
+    if key in TAG_KEYS + LAST_TAG_KEYS:
+        return {}
+    values = set(np.unique(np.concatenate([np.asarray(a).ravel() for a in raw.cell_data[key]])).tolist())
+    splits = [key.split(char) for char in JOIN_CHARS]
+    fits = [parts for parts in splits if len(parts) > 1 and all(parts) and len(set(parts)) == len(parts)
+            and values - {-1} == set(range(len(parts)))]
+    return {**dict(enumerate(fits[0])), -1: ""} if len(fits) == 1 else {}
 
 
 def _merge_same_names(labels, names):

@@ -223,3 +223,39 @@ def test_overlapping_physical_groups_give_each_shared_cell_to_the_smaller_group(
     areas = _group_areas(mesh)
     np.testing.assert_allclose([areas["left"], areas["ends"], areas["untagged"]], [1.0, 1.0, 8.0], rtol=1e-12)
     assert any("overlap (" in w and "ends" in w and "left" in w for w in mesh.warnings)
+
+
+# ----------------------------------------------------------------------------- cell sets through meshio
+
+
+@pytest.mark.parametrize("suffix", [".vtu", ".vtk"])
+def test_cell_sets_written_by_meshio_to_a_format_without_sets_keep_their_names(tmp_path, suffix):
+    # meshio writes named cell sets to VTU/VTK as one integer array named by the joined set
+    # names ("-" is taken by the names here, so it joins with "_"), -1 for cells in no set
+    from heatsoak.core.generate import box_mesh
+
+    box = box_mesh((2, 2, 2), size=(2.0, 1.0, 1.0))
+    tri = box.faces[:, :3]
+    x = box.points[tri].mean(axis=1)[:, 0]
+    sets = {"hot-end": [np.flatnonzero(x < 1e-9), None], "cold-end-face": [np.flatnonzero(x > 2 - 1e-9), None],
+            "body": [None, np.arange(box.n_cells)]}
+    path = tmp_path / f"box{suffix}"
+    meshio.write(path, meshio.Mesh(box.points, [("triangle", tri), ("tetra", box.cells)], cell_sets=sets))
+    mesh = read_mesh(path)
+    assert mesh.region_names == ("body",)
+    areas = _group_areas(mesh)
+    # faces of a 2 x 1 x 1 box: two ends of area 1, four sides of area 2 (geometry)
+    assert set(areas) == {"hot-end", "cold-end-face", "untagged"}
+    np.testing.assert_allclose([areas["hot-end"], areas["cold-end-face"], areas["untagged"]], [1, 1, 8], rtol=1e-12)
+
+
+@pytest.mark.parametrize(("key", "tags"), [("zone-id", (3, 4)), ("a-b_c", (0, 1))])
+def test_an_integer_array_whose_name_only_looks_joined_keeps_numbered_names(tmp_path, key, tags):
+    # values that are not set indices, and a name that splits into two names at "-" and at "_"
+    from heatsoak.core.generate import box_mesh
+
+    box = box_mesh((2, 2, 2))
+    path = tmp_path / "box.vtu"
+    cell_tags = np.where(box.points[box.cells].mean(axis=1)[:, 0] < 0.5, *tags)
+    meshio.write(path, meshio.Mesh(box.points, [("tetra", box.cells)], cell_data={key: [cell_tags]}))
+    assert read_mesh(path).region_names == tuple(f"region-{t}" for t in tags)
