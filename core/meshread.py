@@ -133,6 +133,10 @@ def _reader_problem(fmt: str, exc: BaseException) -> str:
         key = exc.args[0] if exc.args else "?"
         key = key.item() if isinstance(key, np.generic) else key
         return f"as {fmt}: it refers to a node, element or set {key!r} that it does not define"
+    if fmt == "gmsh" and "Incompatible cell data 'gmsh:physical'" in str(exc):
+        # meshio's msh 4 reader fails when some elements are in a physical group and others not
+        return ("as gmsh: saved with Mesh.SaveAll=1 beside physical groups, which meshio cannot read; "
+                "put every volume in a physical volume and save without Mesh.SaveAll")
     return f"as {fmt}: {type(exc).__name__}: {exc}" if str(exc) else f"not readable as {fmt}"
 
 

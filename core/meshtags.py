@@ -64,7 +64,7 @@ def split_blocks(raw, path: Path):
         hint = ""
         if path.suffix == ".msh":
             hint = (
-                " (gmsh saves only elements in physical groups: add a physical volume or set Mesh.SaveAll=1)"
+                " (gmsh saves only elements in physical groups: add a physical volume holding every volume)"
             )
         raise MeshError(f"no tetrahedra in {path}; found: {_census(census)}{hint}")
     kinds = {raw.cells[i].type for i in vol}

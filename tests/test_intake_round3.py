@@ -259,3 +259,9 @@ def test_an_integer_array_whose_name_only_looks_joined_keeps_numbered_names(tmp_
     cell_tags = np.where(box.points[box.cells].mean(axis=1)[:, 0] < 0.5, *tags)
     meshio.write(path, meshio.Mesh(box.points, [("tetra", box.cells)], cell_data={key: [cell_tags]}))
     assert read_mesh(path).region_names == tuple(f"region-{t}" for t in tags)
+
+
+def test_a_msh4_file_saved_with_save_all_beside_physical_groups_says_how_to_save_it(tmp_path, capsys):
+    path = _gmsh_box(tmp_path / "box.msh", 4.1, physical=True, save_all=True)
+    code, _, err = _cli(capsys, "inspect", path)
+    assert code == 2 and "box.msh" in err and "save without Mesh.SaveAll" in err and "ValueError" not in err
