@@ -306,12 +306,12 @@ def _read_time(ck: _Checker, data: dict):
                f"at most {MAX_STEPS:d} are allowed; use a larger step")
         step = None
     theta = sec.get("theta", 1.0)
-    if isinstance(theta, str) and theta in THETA_PRESETS:
-        theta = THETA_PRESETS[theta]
+    if isinstance(theta, str):
+        if theta not in THETA_PRESETS:
+            ck.bad("time.theta", theta, f"expected a number in [0, 1] or one of {list(THETA_PRESETS)}")
+        theta = THETA_PRESETS.get(theta)
     else:
         theta = ck.number(sec, "time", "theta", 1.0, lo=0, hi=1)
-        if theta is not None and isinstance(sec.get("theta"), str):
-            theta = None
     mass = sec.get("mass", "consistent")
     if mass not in MASS_KINDS:
         ck.bad("time.mass", mass, f"mass must be one of {list(MASS_KINDS)}")

@@ -6,11 +6,18 @@ expected answers are facts of geometry or of the heat equation named beside them
 
 from __future__ import annotations
 
+import json
+
 import meshio
 import numpy as np
 import pytest
+import tomli_w
 from heatsoak.core.cli import main
+from heatsoak.core.elements import tet_basis
+from heatsoak.core.generate import box_mesh
 from heatsoak.core.meshread import read_mesh
+from heatsoak.core.probes import ProbeSet, locate
+from heatsoak.core.topology import signed_volumes
 
 gmsh = pytest.importorskip("gmsh")
 
@@ -123,8 +130,6 @@ def _linear(x):
 
 @pytest.mark.parametrize("order", [1, 2])
 def test_a_probe_on_the_true_curved_surface_is_read_at_the_mesh_surface(tmp_path, order):
-    from heatsoak.core.probes import ProbeSet
-
     mesh = read_mesh(_gmsh_cylinder(tmp_path / "rod.msh", order, 5.0), "mm")
     on_cylinder = np.array([[0.02, 0.01 * np.cos(a), 0.01 * np.sin(a)] for a in (0.1, 1.3, 2.9)])
     probes = ProbeSet(mesh, on_cylinder, ["a", "b", "c"], unit="mm")
@@ -138,9 +143,6 @@ def test_a_probe_on_the_true_curved_surface_is_read_at_the_mesh_surface(tmp_path
 
 
 def test_a_point_in_the_bulge_of_a_curved_cell_is_found_without_moving_it(tmp_path):
-    from heatsoak.core.elements import tet_basis
-    from heatsoak.core.probes import ProbeSet, locate
-
     mesh = read_mesh(_gmsh_cylinder(tmp_path / "rod.msh", 2, 6.0), "mm")
     # a point just inside the curved face of each boundary cell, through the cell's own map
     cell = mesh.face_cell
@@ -155,10 +157,6 @@ def test_a_point_in_the_bulge_of_a_curved_cell_is_found_without_moving_it(tmp_pa
 
 
 def test_check_and_run_say_where_a_moved_probe_is_read(tmp_path, capsys):
-    import json
-
-    import tomli_w
-
     _gmsh_cylinder(tmp_path / "rod.msh", 1, 5.0)
     case = {
         "mesh": {"file": "rod.msh", "unit": "mm"},
@@ -214,8 +212,6 @@ def _overlapping_groups(path, version):
 def test_overlapping_physical_groups_give_each_shared_cell_to_the_smaller_group(tmp_path, version):
     # msh 2.2 repeats an element once per group, meshio's msh 4.1 reading tags an entity with its
     # first group only: both must give the same mesh, with no group silently lost
-    from heatsoak.core.topology import signed_volumes
-
     mesh = read_mesh(_overlapping_groups(tmp_path / "bar.msh", version))
     volume = np.bincount(mesh.cell_region, weights=signed_volumes(mesh.points, mesh.cells))
     regions = dict(zip(mesh.region_names, volume))
@@ -232,8 +228,6 @@ def test_overlapping_physical_groups_give_each_shared_cell_to_the_smaller_group(
 def test_cell_sets_written_by_meshio_to_a_format_without_sets_keep_their_names(tmp_path, suffix):
     # meshio writes named cell sets to VTU/VTK as one integer array named by the joined set
     # names ("-" is taken by the names here, so it joins with "_"), -1 for cells in no set
-    from heatsoak.core.generate import box_mesh
-
     box = box_mesh((2, 2, 2), size=(2.0, 1.0, 1.0))
     tri = box.faces[:, :3]
     x = box.points[tri].mean(axis=1)[:, 0]
@@ -252,8 +246,6 @@ def test_cell_sets_written_by_meshio_to_a_format_without_sets_keep_their_names(t
 @pytest.mark.parametrize(("key", "tags"), [("zone-id", (3, 4)), ("a-b_c", (0, 1))])
 def test_an_integer_array_whose_name_only_looks_joined_keeps_numbered_names(tmp_path, key, tags):
     # values that are not set indices, and a name that splits into two names at "-" and at "_"
-    from heatsoak.core.generate import box_mesh
-
     box = box_mesh((2, 2, 2))
     path = tmp_path / "box.vtu"
     cell_tags = np.where(box.points[box.cells].mean(axis=1)[:, 0] < 0.5, *tags)
@@ -265,3 +257,14 @@ def test_a_msh4_file_saved_with_save_all_beside_physical_groups_says_how_to_save
     path = _gmsh_box(tmp_path / "box.msh", 4.1, physical=True, save_all=True)
     code, _, err = _cli(capsys, "inspect", path)
     assert code == 2 and "box.msh" in err and "save without Mesh.SaveAll" in err and "ValueError" not in err
+
+
+def test_a_misspelt_theta_name_lists_the_names_allowed(tmp_path, capsys):
+    box = box_mesh((1, 1, 1))
+    meshio.write(tmp_path / "box.vtu", meshio.Mesh(box.points, [("tetra", box.cells)]))
+    case = {"mesh": {"file": "box.vtu"}, "material": {"*": {"density": 1, "specific_heat": 1, "conductivity": 1}},
+            "initial": {"temperature": 0}, "time": {"end": 1, "step": 1, "theta": "crank-nicholson"}}
+    path = tmp_path / "case.toml"
+    path.write_text(tomli_w.dumps(case), encoding="utf-8")
+    code, _, err = _cli(capsys, "check", path)
+    assert code == 2 and "time.theta: 'crank-nicholson' is not allowed" in err and "'crank-nicolson'" in err
