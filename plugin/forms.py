@@ -9,10 +9,12 @@ reading numbers out of pasted text.
 
 from __future__ import annotations
 
+import json
 import math
 import re
 
 from heatsoak.core.materials import LIBRARY
+from heatsoak.core.stepping.theta import THETA_PRESETS
 
 #: Boundary kinds offered, (value, label, unit of the schedule).
 KINDS = (
@@ -116,15 +118,40 @@ def boundary_entry(form: dict, group: str) -> dict:
     return {"kind": kind, **(sched if isinstance(sched, dict) else {"value": sched})}
 
 
+def conductivity_value(value, key: str):
+    """A conductivity from a form: a number, or a 3x3 tensor given as a list or as its text
+    ``[[kxx, kxy, kxz], [..], [..]]`` [W/(m K)]; whether it is symmetric and positive is left to the core checks."""
+    if isinstance(value, str) and value.strip().startswith("["):
+        try:
+            value = json.loads(value)
+        except ValueError:
+            raise FormError(key, f"{value!r} is not a 3x3 list like [[0.2, 0, 0], [0, 0.2, 0], [0, 0, 0.17]]") from None
+    if isinstance(value, list):
+        if len(value) != 3 or not all(isinstance(r, list) and len(r) == 3 for r in value):
+            raise FormError(key, f"{value!r}: a conductivity tensor has 3 rows of 3 numbers")
+        return [[_number(v, key) for v in row] for row in value]
+    return _number(value, key)
+
+
 def material_entry(form: dict, region: str) -> dict:
-    """``material.<region>`` of the case from a material form."""
+    """``material.<region>`` of the case from a material form (a ``source`` read from a case is kept)."""
     key = f"material.{region}"
-    entry = {k: _number(form.get(k), f"{key}.{k}") for k in ("density", "specific_heat", "conductivity")}
+    entry = {k: _number(form.get(k), f"{key}.{k}") for k in ("density", "specific_heat")}
+    entry["conductivity"] = conductivity_value(form.get("conductivity"), f"{key}.conductivity")
     if form.get("preset") in LIBRARY:
         entry["label"] = LIBRARY[form["preset"]].as_case()["label"]
     elif form.get("label"):
         entry["label"] = str(form["label"])
+    if form.get("source") is not None:
+        entry["source"] = form["source"]
     return entry
+
+
+def theta_value(value, key: str = "time.theta"):
+    """Theta from the form: a number, or one of the named presets the case files accept."""
+    if isinstance(value, str) and value.strip().lower() in THETA_PRESETS:
+        return value.strip().lower()
+    return _number(value, key)
 
 
 def case_from_forms(mesh: dict, bcs: dict, materials: dict, initial, time: dict, probes: list,
@@ -158,8 +185,10 @@ def case_from_forms(mesh: dict, bcs: dict, materials: dict, initial, time: dict,
         if form.get("kind", "insulated") != "insulated":
             case["boundary"][group] = attempt(boundary_entry, form, group) or {"kind": form["kind"]}
     case["initial"] = {"temperature": attempt(_number, initial, "initial.temperature")}
-    case["time"] = {k: attempt(_number, time.get(k), f"time.{k}") for k in ("end", "step", "theta")}
+    case["time"] = {k: attempt(_number, time.get(k), f"time.{k}") for k in ("end", "step")}
+    case["time"]["theta"] = attempt(theta_value, time.get("theta"))
     case["time"]["mass"] = time.get("mass", "consistent")
+    case["time"].update(time.get("kept") or {})  # keys the forms do not edit, as the case file gave them
     # keyed by position, as the core checks key them, so the message lands on the probe's row
     case["probe"] = [p for p in (attempt(probe_entry, p, f"probe[{i}]") for i, p in enumerate(probes)) if p]
     case["output"] = {"every": attempt(_whole, every, "output.every")}

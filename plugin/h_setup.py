@@ -7,6 +7,7 @@ forms of every group and region live on the panel (``panel.bcs``,
 
 from __future__ import annotations
 
+import json
 import re
 
 import numpy as np
@@ -15,6 +16,7 @@ from heatsoak.core.errors import InputError
 from heatsoak.core.materials import LIBRARY, SOURCE_NOTE
 from heatsoak.core.meshread import UNITS
 from heatsoak.core.schedule import parse_schedule
+from heatsoak.core.stepping.theta import THETA_PRESETS
 
 from . import files, plots
 from .forms import KIND_UNITS, KINDS, FormError, case_from_forms, default_bc, issues_by_field, probe_entry, schedule_value
@@ -24,6 +26,9 @@ BC_FIELDS = ("kind", "shape", "value", "start", "end", "at", "over", "table", "h
 MAT_FIELDS = ("preset", "density", "specific_heat", "conductivity")
 TIME_KEYS = ("hs_t_end", "hs_t_step", "hs_t_theta", "hs_t_mass", "hs_initial", "hs_every")
 DEFAULT_MATERIAL = "carbon_steel"
+#: Keys of a case file the forms do not edit but keep: a material's label and heat source, time options.
+KEPT_MATERIAL_KEYS = ("label", "source")
+KEPT_TIME_KEYS = ("solver", "start_steps")
 
 
 def material_form(entry: dict) -> dict:
@@ -31,7 +36,10 @@ def material_form(entry: dict) -> dict:
     if isinstance(entry, str):
         return {"preset": entry, **{k: v for k, v in LIBRARY[entry].as_case().items() if k != "label"}}
     preset = next((k for k, m in LIBRARY.items() if str(entry.get("label", "")).startswith(m.name)), "custom")
-    return {"preset": preset, **{k: _as_number(entry.get(k, 0.0)) for k in MAT_FIELDS[1:]}}
+    form = {"preset": preset, **{k: _as_number(entry.get(k, 0.0)) for k in MAT_FIELDS[1:]}}
+    if isinstance(entry.get("conductivity"), list):  # a tensor: edited as its text
+        form["conductivity"] = json.dumps(entry["conductivity"])
+    return form | {k: entry[k] for k in KEPT_MATERIAL_KEYS if k in entry}
 
 
 def _as_number(value):
@@ -126,7 +134,12 @@ def register_materials_and_time(panel) -> None:
         region = state.hs_region
         if region not in panel.mats:
             return
+        old = panel.mats[region]
         form = {k: state[f"hs_m_{k}"] for k in MAT_FIELDS}
+        if not any(_differs(form[k], old.get(k)) for k in MAT_FIELDS[1:]):
+            form |= {k: old[k] for k in KEPT_MATERIAL_KEYS if k in old}  # same numbers: the case's label still holds
+        elif "source" in old:
+            form["source"] = old["source"]  # not edited here
         lib = LIBRARY.get(form["preset"])
         if lib is not None and any(_differs(form[k], getattr(lib, k)) for k in MAT_FIELDS[1:]):
             form["preset"] = state.hs_m_preset = "custom"
@@ -191,7 +204,7 @@ def _differs(a, b) -> bool:
     try:
         return abs(float(a) - float(b)) > 1e-12 * max(1.0, abs(float(b)))
     except (TypeError, ValueError):
-        return True
+        return str(a).replace(" ", "") != str(b).replace(" ", "")  # e.g. a tensor's text
 
 
 def _placeable(probe: dict) -> bool:
@@ -212,6 +225,7 @@ def next_probe_name(probes) -> str:
 def theta_hint(theta) -> str:
     """What the chosen theta means for the user."""
     try:
+        theta = THETA_PRESETS.get(str(theta).strip().lower(), theta)
         theta = float(theta)
     except (TypeError, ValueError):
         return ""
@@ -230,6 +244,7 @@ def mesh_changed(panel, keep_forms: bool = False) -> None:
     panel.bcs = {g: old_bcs.get(g, default_bc()) for g in mesh.group_names}
     panel.mats = {r: old_mats.get(r, material_form(DEFAULT_MATERIAL)) for r in mesh.region_names}
     if not keep_forms:
+        panel.kept_time, panel.title = {}, ""  # they came with the case opened before
         state.hs_probe_error = ""  # it spoke of a probe typed for the mesh before
         state.hs_probes = []
         state.hs_p_name = "P1"
@@ -250,6 +265,8 @@ def set_forms(panel, bcs: dict, mats: dict, case: dict) -> None:
     panel.bcs.update(bcs)
     panel.mats.update(mats)
     time = case.get("time") if isinstance(case.get("time"), dict) else {}
+    panel.kept_time = {k: time[k] for k in KEPT_TIME_KEYS if k in time}
+    panel.title = case.get("title") if isinstance(case.get("title"), str) else ""
     state.update({"hs_t_end": time.get("end", 600.0), "hs_t_step": time.get("step", 10.0),
                   "hs_t_theta": time.get("theta", 1.0), "hs_t_mass": time.get("mass", "consistent"),
                   "hs_initial": (case.get("initial") or {}).get("temperature", 20.0),
@@ -294,9 +311,13 @@ def current_case(panel) -> tuple:
     state = panel.state
     mesh = {"file": panel.mesh_path.name if panel.mesh_path else "", "unit": state.hs_unit,
             "feature_angle": float(state.hs_feature_angle)}
-    time = {"end": state.hs_t_end, "step": state.hs_t_step, "theta": state.hs_t_theta, "mass": state.hs_t_mass}
-    return case_from_forms(mesh, panel.bcs, panel.mats, state.hs_initial, time, state.hs_probes,
-                           every=state.hs_every)
+    time = {"end": state.hs_t_end, "step": state.hs_t_step, "theta": state.hs_t_theta, "mass": state.hs_t_mass,
+            "kept": getattr(panel, "kept_time", {})}
+    case, errors = case_from_forms(mesh, panel.bcs, panel.mats, state.hs_initial, time, state.hs_probes,
+                                   every=state.hs_every)
+    if getattr(panel, "title", ""):
+        case = {"title": panel.title, **case}
+    return case, errors
 
 
 def validate(panel) -> list:

@@ -12,6 +12,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+import tomllib
 
 sys.path.insert(0, str(Path(__file__).parent / "browser"))
 from uidriver import browse, choose, fill, open_section, serve, wait_for
@@ -28,7 +29,8 @@ DEMO = MESHES / "platen_warmup.toml"
 @pytest.fixture(scope="module")
 def data_dir(tmp_path_factory) -> Path:
     folder = tmp_path_factory.mktemp("ui-round3-data")
-    for name in ("platen_warmup.toml", "platen.msh", "platen_base.csv", "lblock.vtu"):
+    for name in ("platen_warmup.toml", "platen.msh", "platen_base.csv", "lblock.vtu", "lblock_cooling.toml",
+                 "platen_p2_cycling.toml", "platen_p2.msh"):
         shutil.copy(MESHES / name, folder / name)
     # the demo case with a word for the first probe's threshold
     text = DEMO.read_text()
@@ -130,6 +132,30 @@ def test_results_in_a_1280_by_800_window_keep_a_usable_scrubber_units_and_the_no
     box = note.bounding_box()
     assert box["y"] + box["height"] <= 800 and box["x"] + box["width"] <= 1280  # seen without scrolling
     page.screenshot(path=str(shots_dir / "round3-1280x800.png"))
+
+
+@pytest.mark.parametrize("case", ["lblock_cooling.toml", "platen_p2_cycling.toml"])
+def test_a_demo_case_opens_ready_to_run_and_exports_what_the_forms_do_not_edit(page, data_dir, case, tmp_path):
+    """A conductivity tensor, a named theta, start_steps, the title and material labels survive the UI."""
+    open_section(page, "Mesh")
+    page.locator(".hs-file", has_text=case).click()
+    page.wait_for_selector(f"#hs-fact-unit >> text=from {case}", timeout=30_000)
+    page.wait_for_selector("#hs-run:not([disabled])", timeout=15_000)
+    assert page.locator("#hs-run-reason").count() == 0
+    with page.expect_download() as dl:
+        page.click("#hs-export-case")
+    dl.value.save_as(tmp_path / case)
+    given, exported = (tomllib.loads(p.read_text()) for p in (data_dir / case, tmp_path / case))
+    assert exported["title"] == given["title"]
+    for key, value in given["time"].items():
+        assert exported["time"][key] == value, key
+    regions = list(exported["material"])
+    for name, material in given["material"].items():
+        for region in (regions if name == "*" else [name]):
+            if name == "*" and region in given["material"]:
+                continue
+            for key, value in material.items():
+                assert exported["material"][region][key] == value, (region, key)
 
 
 @pytest.fixture(scope="module")
