@@ -60,7 +60,7 @@ def player(panel) -> None:
                 v3.VBtn("range: this frame", value="auto", size="small")
             with html.Span(classes="text-caption"):
                 html.Span("{{ hs_range[0] }} … {{ hs_range[1] }}", id="hs-range")
-                html.Span(" {{ hs_diff_run == null ? '°C' : 'K' }}", id="hs-range-unit")
+                html.Span("{{ hs_diff_run == null ? '°C' : 'K' }}", classes="ml-1", id="hs-range-unit")
             v3.VSwitch(v_model=("hs_clip",), label="clip", density="compact", hide_details=True, color="#2f5d50",
                        id="hs-clip")
             v3.VSelect(v_if="hs_clip", v_model=("hs_clip_axis",), items=("['x', 'y', 'z']",), density="compact",
