@@ -43,6 +43,39 @@ def default_bc() -> dict:
             "at": 0.0, "over": 300.0, "table": "0, 20\n300, 100\n600, 100", "h": 10.0}
 
 
+#: Shapes of a region's heat source: none, or a schedule like a condition's.
+SOURCE_SHAPES = ("none",) + tuple(v for v, _ in SHAPES)
+#: The schedule fields of a source form, stored on the material form with a ``source_`` prefix.
+SOURCE_FIELDS = ("shape", "value", "start", "end", "at", "over", "table")
+
+
+def default_source() -> dict:
+    """A fresh source form (``source_*`` keys): no source, with numbers ready for the other shapes [W/m³]."""
+    return {"source_shape": "none", "source_value": 0.0, "source_start": 0.0, "source_end": 1e5,
+            "source_at": 0.0, "source_over": 600.0, "source_table": "0, 0\n600, 1e5"}
+
+
+def source_form(value, read_table=None) -> dict:
+    """The ``source_*`` fields of a material form from a case ``material.<region>.source`` value
+    (a number or schedule [W/m³]; None for no source); a table given as a CSV file name is read
+    with ``read_table(name) -> (times, values)``."""
+    if value is None:
+        return default_source()
+    if isinstance(value, dict) and isinstance(value.get("table"), str) and read_table is not None:
+        times, values = read_table(value["table"])
+        value = {"table": [[float(t), float(v)] for t, v in zip(times, values)]}
+    sched = schedule_form(value, {}) or {"shape": "constant", "value": str(value)}  # unreadable: shown where typed
+    return default_source() | {f"source_{k}": v for k, v in sched.items()}
+
+
+def source_value(form: dict, key: str):
+    """The case ``source`` of a material form (None for no source); FormErrors are keyed under ``key``."""
+    shape = form.get("source_shape", "none")
+    if shape == "none":
+        return form.get("source")  # a plain form may carry the case value as it was
+    return schedule_value({k: form.get(f"source_{k}") for k in SOURCE_FIELDS}, key)
+
+
 def parse_table_text(text: str, key: str) -> list:
     """Rows ``[[t, v], ...]`` from pasted two-column text (comma, semicolon, tab or spaces).
 
@@ -134,7 +167,7 @@ def conductivity_value(value, key: str):
 
 
 def material_entry(form: dict, region: str) -> dict:
-    """``material.<region>`` of the case from a material form (a ``source`` read from a case is kept)."""
+    """``material.<region>`` of the case from a material form, with its heat source when it has one."""
     key = f"material.{region}"
     entry = {k: _number(form.get(k), f"{key}.{k}") for k in ("density", "specific_heat")}
     entry["conductivity"] = conductivity_value(form.get("conductivity"), f"{key}.conductivity")
@@ -142,8 +175,9 @@ def material_entry(form: dict, region: str) -> dict:
         entry["label"] = LIBRARY[form["preset"]].as_case()["label"]
     elif form.get("label"):
         entry["label"] = str(form["label"])
-    if form.get("source") is not None:
-        entry["source"] = form["source"]
+    source = source_value(form, f"{key}.source")
+    if source is not None:
+        entry["source"] = source
     return entry
 
 
@@ -213,13 +247,17 @@ def field_key(issue_key: str) -> str:
 
     ``boundary.bore.value.ramp.over`` -> ``boundary.bore.over``;
     ``boundary.bore.value.table[3]`` -> ``boundary.bore.table``;
-    ``boundary.bore.ambient`` -> ``boundary.bore.value``.
+    ``boundary.bore.ambient`` -> ``boundary.bore.value``;
+    ``material.core.source.ramp.at`` -> ``material.core.source.at``.
     """
     probe = re.match(r"probe\[(\d+)\]", str(issue_key))
     if probe:
         return f"probe.{probe.group(1)}"
     key = re.sub(r"\[\d+\]", "", str(issue_key))
     parts = key.split(".")
+    if parts[0] == "material" and parts[2:3] == ["source"]:  # like a condition: the schedule field itself
+        rest = [p for p in parts[3:] if p != "ramp"]
+        return ".".join(parts[:3] + (rest[-1:] or ["value"]))
     if parts[0] == "boundary" and len(parts) >= 3:
         rest = [p for p in parts[2:] if p not in ("value", "ambient", "ramp")]
         return ".".join(parts[:2] + (rest[-1:] or ["value"]))

@@ -10,7 +10,7 @@ from heatsoak.core.inspect import summarize
 from heatsoak.core.meshread import UNITS, read_mesh
 from heatsoak.core.schedule import read_table_csv
 
-from . import files, h_results, h_setup
+from . import files, h_materials, h_results, h_setup
 from .forms import bc_form_from_case
 
 
@@ -195,5 +195,8 @@ def fill_forms_from_case(panel, data: dict, base_dir: Path) -> None:
     for region in mats:
         entry = materials.get(region) or materials.get("*")
         if isinstance(entry, dict):
-            mats[region] = h_setup.material_form(entry)
+            try:
+                mats[region] = h_materials.material_form(entry, read_table)
+            except (InputError, ValueError, TypeError) as exc:
+                state.hs_mesh_error = f"material.{region}.source: {exc}"
     h_setup.set_forms(panel, bcs=bcs, mats=mats, case=data)

@@ -7,47 +7,25 @@ forms of every group and region live on the panel (``panel.bcs``,
 
 from __future__ import annotations
 
-import json
 import re
 
 import numpy as np
 from heatsoak.core.case import check_case_data
 from heatsoak.core.errors import InputError
-from heatsoak.core.materials import LIBRARY, SOURCE_NOTE
+from heatsoak.core.materials import SOURCE_NOTE
 from heatsoak.core.meshread import UNITS
 from heatsoak.core.schedule import parse_schedule
 from heatsoak.core.stepping.theta import THETA_PRESETS
 
-from . import files, plots
+from . import files, h_materials, plots
 from .forms import KIND_UNITS, KINDS, FormError, case_from_forms, default_bc, issues_by_field, probe_entry, schedule_value
+from .h_materials import material_form
 from .scene import group_colour
 
 BC_FIELDS = ("kind", "shape", "value", "start", "end", "at", "over", "table", "h")
-MAT_FIELDS = ("preset", "density", "specific_heat", "conductivity")
 TIME_KEYS = ("hs_t_end", "hs_t_step", "hs_t_theta", "hs_t_mass", "hs_initial", "hs_every")
-DEFAULT_MATERIAL = "carbon_steel"
-#: Keys of a case file the forms do not edit but keep: a material's label and heat source, time options.
-KEPT_MATERIAL_KEYS = ("label", "source")
+#: Keys of a case file's [time] the forms do not edit but keep.
 KEPT_TIME_KEYS = ("solver", "start_steps")
-
-
-def material_form(entry: dict) -> dict:
-    """A material form from a case ``material.<region>`` table or a library key."""
-    if isinstance(entry, str):
-        return {"preset": entry, **{k: v for k, v in LIBRARY[entry].as_case().items() if k != "label"}}
-    preset = next((k for k, m in LIBRARY.items() if str(entry.get("label", "")).startswith(m.name)), "custom")
-    form = {"preset": preset, **{k: _as_number(entry.get(k, 0.0)) for k in MAT_FIELDS[1:]}}
-    if isinstance(entry.get("conductivity"), list):  # a tensor: edited as its text
-        form["conductivity"] = json.dumps(entry["conductivity"])
-    return form | {k: entry[k] for k in KEPT_MATERIAL_KEYS if k in entry}
-
-
-def _as_number(value):
-    """A float when ``value`` reads as one, else the value as text (the field then shows what is wrong)."""
-    try:
-        return float(value)
-    except (TypeError, ValueError):
-        return str(value)
 
 
 def register(panel) -> None:
@@ -58,17 +36,15 @@ def register(panel) -> None:
         "hs_groups": [], "hs_group": None, "hs_editor_group": None, "hs_regions": [], "hs_region": None,
         "hs_pick_mode": "group",
         "hs_kinds": [{"value": v, "title": t} for v, t, _ in KINDS], "hs_bc_unit": "",
-        "hs_library": [{"value": k, "title": m.name} for k, m in LIBRARY.items()]
-        + [{"value": "custom", "title": "Custom values"}],
         "hs_library_note": SOURCE_NOTE, "hs_preview": "", "hs_err": {}, "hs_run_reason": "Open a mesh first",
         "hs_t_end": 600.0, "hs_t_step": 10.0, "hs_t_theta": 1.0, "hs_t_mass": "consistent", "hs_initial": 20.0,
         "hs_every": 1, "hs_theta_hint": "", "hs_probes": [], "hs_p_name": "P1", "hs_p_x": 0.0, "hs_p_y": 0.0,
         "hs_p_z": 0.0, "hs_p_threshold": None, "hs_probe_error": "", "hs_case_name": "",
     })
     state.update({f"hs_e_{k}": v for k, v in default_bc().items()})
-    state.update({f"hs_m_{k}": None for k in MAT_FIELDS})
     register_conditions(panel)
-    register_materials_and_time(panel)
+    h_materials.register(panel, validate)
+    register_time(panel)
     register_probes(panel)
 
 
@@ -113,38 +89,9 @@ def register_conditions(panel) -> None:
         state.hs_table_upload = None
 
 
-def register_materials_and_time(panel) -> None:
-    """Material editor and time settings."""
+def register_time(panel) -> None:
+    """Time settings."""
     state = panel.state
-
-    @state.change("hs_region")
-    def on_region(hs_region, **_):
-        form = panel.mats.get(hs_region)
-        if form is not None:
-            state.update({f"hs_m_{k}": form[k] for k in MAT_FIELDS})
-
-    @state.change("hs_m_preset")
-    def on_preset(hs_m_preset, **_):
-        """Fill the numbers of a library material."""
-        if hs_m_preset in LIBRARY and panel.mats.get(state.hs_region, {}).get("preset") != hs_m_preset:
-            state.update({f"hs_m_{k}": v for k, v in material_form(hs_m_preset).items()})
-
-    @state.change(*(f"hs_m_{k}" for k in MAT_FIELDS[1:]))
-    def on_material_edit(**_):
-        region = state.hs_region
-        if region not in panel.mats:
-            return
-        old = panel.mats[region]
-        form = {k: state[f"hs_m_{k}"] for k in MAT_FIELDS}
-        if not any(_differs(form[k], old.get(k)) for k in MAT_FIELDS[1:]):
-            form |= {k: old[k] for k in KEPT_MATERIAL_KEYS if k in old}  # same numbers: the case's label still holds
-        elif "source" in old:
-            form["source"] = old["source"]  # not edited here
-        lib = LIBRARY.get(form["preset"])
-        if lib is not None and any(_differs(form[k], getattr(lib, k)) for k in MAT_FIELDS[1:]):
-            form["preset"] = state.hs_m_preset = "custom"
-        panel.mats[region] = form
-        validate(panel)
 
     @state.change(*TIME_KEYS)
     def on_time_edit(**_):
@@ -200,13 +147,6 @@ def register_probes(panel) -> None:
             state.hs_group = panel.mesh.group_names[group]
 
 
-def _differs(a, b) -> bool:
-    try:
-        return abs(float(a) - float(b)) > 1e-12 * max(1.0, abs(float(b)))
-    except (TypeError, ValueError):
-        return str(a).replace(" ", "") != str(b).replace(" ", "")  # e.g. a tensor's text
-
-
 def _placeable(probe: dict) -> bool:
     """Whether the probe's position reads as three numbers (it is marked in 3D even if another entry is wrong)."""
     try:
@@ -242,7 +182,7 @@ def mesh_changed(panel, keep_forms: bool = False) -> None:
     state, mesh = panel.state, panel.mesh
     old_bcs, old_mats = (panel.bcs, panel.mats) if keep_forms else ({}, {})
     panel.bcs = {g: old_bcs.get(g, default_bc()) for g in mesh.group_names}
-    panel.mats = {r: old_mats.get(r, material_form(DEFAULT_MATERIAL)) for r in mesh.region_names}
+    panel.mats = {r: old_mats.get(r, material_form(h_materials.DEFAULT_MATERIAL)) for r in mesh.region_names}
     if not keep_forms:
         panel.kept_time, panel.title = {}, ""  # they came with the case opened before
         state.hs_probe_error = ""  # it spoke of a probe typed for the mesh before

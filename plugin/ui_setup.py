@@ -143,7 +143,29 @@ def materials_section(panel) -> None:
         number("hs_m_density", "Density", "kg/m³", f"{r}density'", id="hs-density")
         number("hs_m_specific_heat", "Specific heat", "J/(kg K)", f"{r}specific_heat'", id="hs-cp")
         number("hs_m_conductivity", "Conductivity", "W/(m K)", f"{r}conductivity'", id="hs-k")
-        note("Library values: {{ hs_library_note }}. Check them against the supplier's data.")
+        note("Library values: {{ hs_library_note }}. Check them against the supplier's data.", classes="mb-2")
+        source_editor()
+
+
+def source_editor() -> None:
+    """Heat generated in the selected region over time [W/m³]: none, constant, ramp or table."""
+    r = "'material.' + hs_region + '.source."
+    html.Div("Heat generated in the region (W/m³)", classes="text-caption hs-ink")
+    with v3.VBtnToggle(v_model=("hs_m_source_shape",), density="compact", mandatory=True, divided=True,
+                       variant="outlined", classes="mb-2", id="hs-src-shape", color="#2f5d50"):
+        for shape in ("none", "constant", "ramp", "table"):
+            v3.VBtn(shape, value=shape, size="small")
+    number("hs_m_source_value", "Heat source", "W/m³", f"{r}value'", v_if="hs_m_source_shape == 'constant'",
+           id="hs-src-value")
+    with v3.VRow(v_if="hs_m_source_shape == 'ramp'", dense=True, id="hs-src-ramp"):
+        for key, label, unit in (("start", "Start value", "W/m³"), ("end", "End value", "W/m³"),
+                                 ("at", "Start time", "s"), ("over", "Duration", "s")):
+            with v3.VCol(cols=6):
+                number(f"hs_m_source_{key}", label, unit, f"{r}{key}'", id=f"hs-src-ramp-{key}")
+    v3.VTextarea(v_if="hs_m_source_shape == 'table'", v_model=("hs_m_source_table",),
+                 label="time [s], heat source [W/m³] — one pair per line", rows=3, auto_grow=True,
+                 density="compact", variant="outlined", hide_details="auto", error_messages=errors_of(f"{r}table'"),
+                 id="hs-src-table", classes="hs-mono")
 
 
 def time_section(panel) -> None:

@@ -1,0 +1,169 @@
+"""The browser UI, round 4: a heat source per region, probe notes, material labels, and no set-up lost
+by opening another file.
+
+One ``heatsoak ui`` server serves every test in this file, in order.
+"""
+
+from __future__ import annotations
+
+import csv
+import shutil
+import subprocess
+import sys
+import zipfile
+from pathlib import Path
+
+import numpy as np
+import pytest
+import tomllib
+
+sys.path.insert(0, str(Path(__file__).parent / "browser"))
+from uidriver import browse, choose, fill, open_section, serve, wait_for
+
+pytestmark = pytest.mark.browser
+playwright_api = pytest.importorskip("playwright.sync_api")
+if not Path("/usr/bin/chromium").exists():
+    pytest.skip("needs Debian's chromium at /usr/bin/chromium", allow_module_level=True)
+
+MESHES = Path(__file__).resolve().parent.parent / "meshes"
+DEMO = MESHES / "platen_warmup.toml"
+#: The heat source set on the platen region [W/m³] and the end time of the runs [s].
+SOURCE, END = 1e6, 200.0
+
+
+@pytest.fixture(scope="module")
+def data_dir(tmp_path_factory) -> Path:
+    folder = tmp_path_factory.mktemp("ui-round4-data")
+    for name in ("platen_warmup.toml", "platen.msh", "platen_base.csv", "lblock.vtu", "lblock_cooling.toml"):
+        shutil.copy(MESHES / name, folder / name)
+    # the demo with a ramped source in the sleeve, as a case file gives it
+    text = DEMO.read_text()
+    assert "label = \"stainless steel" in text
+    ramp = "source = { ramp = { start = 0, end = 5e5, at = 60, over = 120 } }\n"
+    (folder / "sourced.toml").write_text(text.replace("label = \"stainless steel", ramp + "label = \"stainless steel", 1))
+    return folder
+
+
+@pytest.fixture(scope="module")
+def shots(tmp_path_factory) -> Path:
+    return tmp_path_factory.mktemp("ui-round4-shots")
+
+
+@pytest.fixture(scope="module")
+def server(data_dir, tmp_path_factory):
+    yield from serve(data_dir / DEMO.name, data_dir, tmp_path_factory.mktemp("ui-round4-log"),
+                     forbidden=("traceback", "exception"))
+
+
+@pytest.fixture(scope="module")
+def page(server):
+    yield from browse(server)
+
+
+def read_probe_csv(path) -> dict:
+    with open(path, newline="") as f:
+        rows = list(csv.reader(f))
+    body = np.array(rows[1:], dtype=float)
+    return {name: body[:, i] for i, name in enumerate(rows[0])}
+
+
+def download(page, button: str, path: Path) -> Path:
+    with page.expect_download() as dl:
+        page.click(button)
+    dl.value.save_as(path)
+    return path
+
+
+def field_message(page, selector: str, text: str) -> None:
+    """Wait for ``text`` among the messages of the field whose input is ``selector``."""
+    field = page.locator(selector).locator("xpath=ancestor::div[contains(@class,'v-input')]").first
+    field.locator(".v-messages__message", has_text=text).wait_for(timeout=15_000)
+
+
+def run_and_wait(page, runs_before: int) -> None:
+    page.wait_for_selector("#hs-run:not([disabled])", timeout=15_000)
+    page.click("#hs-run")
+    wait_for(lambda: page.locator(".hs-run-row").count() > runs_before, 90, what="the run to be listed")
+    page.wait_for_selector("#hs-progress-text >> text=complete", timeout=30_000)
+
+
+def to_setup(page) -> None:
+    setup_view = page.locator("#hs-view-mode button:has-text('set-up')")
+    if setup_view.count():
+        setup_view.click()
+
+
+def test_a_heat_source_on_a_region_warms_it_is_exported_and_runs_alike_in_the_cli(page, data_dir, shots, tmp_path):
+    import meshio
+
+    open_section(page, "Start and time")
+    fill(page, "#hs-end", END)
+    run_and_wait(page, 0)
+    cold = read_probe_csv(download(page, "#hs-export-probes", tmp_path / "no-source.csv"))
+
+    to_setup(page)
+    open_section(page, "Materials")
+    choose(page, "#hs-region", "platen")
+    page.locator("#hs-src-shape button", has_text="constant").click()
+    fill(page, "#hs-src-value", "lots")
+    field_message(page, "#hs-src-value", "'lots' is not a number")
+    page.wait_for_selector("#hs-run[disabled]", timeout=15_000)
+    fill(page, "#hs-src-value", SOURCE)
+    page.locator("#hs-setup-drawer").screenshot(path=str(shots / "source.png"))
+    run_and_wait(page, 1)
+    hot = read_probe_csv(download(page, "#hs-export-probes", tmp_path / "source.csv"))
+
+    # The difference u of the two runs solves rho c du/dt = div(k grad u) + q (q in the platen only), u = 0 at
+    # the start and on the Dirichlet faces (bore, base), k du/dn + h u = 0 on the convective ones. By the
+    # comparison (maximum) principle (Evans, Partial Differential Equations, 2nd ed., §2.3.3 and §7.1.4, from
+    # memory) u >= 0 and u stays below two supersolutions: q t / (rho c)_platen (the sleeve's rho c is larger) and
+    # the plane wall with generation, cooled base, insulated top, q (2 L z - z^2) / (2 k) (Incropera et al., 6th
+    # ed., §3.5, from memory; the sleeve spans the full height, so its vertical faces carry no jump in k du/dz).
+    case = tomllib.loads(download(page, "#hs-export-case", tmp_path / "case.toml").read_text())
+    platen, sleeve = case["material"]["platen"], case["material"]["sleeve"]
+    assert platen["source"] == SOURCE and "source" not in sleeve
+    rho_c = platen["density"] * platen["specific_heat"]
+    assert sleeve["density"] * sleeve["specific_heat"] >= rho_c
+    height = np.ptp(meshio.read(data_dir / "platen.msh").points[:, 2]) / 1000  # mm -> m
+    for probe in case["probe"]:
+        name, z = probe["name"], probe["at"][2] / 1000
+        wall = SOURCE * (2 * height * z - z**2) / (2 * platen["conductivity"])
+        rise = hot[name] - cold[name]
+        assert np.all(rise >= -1e-9) and np.all(rise <= SOURCE * cold["time"] / rho_c + 1e-6), name
+        assert rise[-1] <= 1.01 * wall, name
+        if name == "top-mid":  # far from the bore and rim the wall's value is nearly reached
+            assert rise[-1] > 0.8 * wall
+
+    # The exported bundle run by the CLI gives the UI's numbers.
+    download(page, "#hs-export-bundle", tmp_path / "bundle.zip")
+    with zipfile.ZipFile(tmp_path / "bundle.zip") as z:
+        z.extractall(tmp_path / "bundle")
+    done = subprocess.run([sys.executable, "-m", "heatsoak.core.cli", "run", str(tmp_path / "bundle" / "case.toml"),
+                           "--out", str(tmp_path / "cli"), "--quiet"], capture_output=True, text=True, timeout=120,
+                          check=False)
+    assert done.returncode == 0, done.stderr
+    cli = read_probe_csv(tmp_path / "cli" / "probes.csv")
+    assert set(cli) == set(hot)
+    for name in hot:
+        np.testing.assert_allclose(hot[name], cli[name], rtol=1e-9, atol=1e-9)
+
+
+def test_a_source_from_a_case_is_shown_checked_at_its_field_and_exported(page, tmp_path):
+    to_setup(page)
+    open_section(page, "Mesh")
+    page.locator(".hs-file", has_text="sourced.toml").click()
+    page.wait_for_selector("#hs-fact-unit >> text=from sourced.toml", timeout=30_000)
+    open_section(page, "Materials")
+    choose(page, "#hs-region", "sleeve")
+    page.wait_for_selector("#hs-src-ramp", timeout=15_000)
+    assert [float(page.locator(f"#hs-src-ramp-{k}").input_value()) for k in ("start", "end", "at", "over")] == [
+        0.0, 5e5, 60.0, 120.0]
+    fill(page, "#hs-src-ramp-over", -5)
+    field_message(page, "#hs-src-ramp-over", "-5")
+    page.wait_for_selector("#hs-run-reason >> text=material.sleeve.source", timeout=15_000)
+    fill(page, "#hs-src-ramp-over", 90)
+    page.wait_for_selector("#hs-run:not([disabled])", timeout=15_000)
+    case = tomllib.loads(download(page, "#hs-export-case", tmp_path / "case.toml").read_text())
+    assert case["material"]["sleeve"]["source"] == {"ramp": {"start": 0.0, "end": 5e5, "at": 60.0, "over": 90.0}}
+    assert "source" not in case["material"]["platen"]
+    assert case["material"]["sleeve"]["label"].startswith("stainless steel")  # the label still holds
