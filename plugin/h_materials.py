@@ -18,7 +18,7 @@ MAT_NUMBERS = ("density", "specific_heat", "conductivity")
 SOURCE_KEYS = tuple(f"source_{k}" for k in SOURCE_FIELDS)
 MAT_FIELDS = ("preset", *MAT_NUMBERS, *SOURCE_KEYS)
 DEFAULT_MATERIAL = "carbon_steel"
-#: Choices of the material selector.
+#: Choices of the material selector; the last one is replaced by the region's own label when it has one.
 LIBRARY_ITEMS = [{"value": k, "title": m.name} for k, m in LIBRARY.items()]
 CUSTOM_TITLE = "Custom values"
 
@@ -33,10 +33,17 @@ def material_form(entry, read_table=None) -> dict:
         return {"preset": entry, **numbers, **default_source()}
     preset = next((k for k, m in LIBRARY.items() if str(entry.get("label", "")).startswith(m.name)), "custom")
     form = {"preset": preset, **{k: _as_number(entry.get(k, 0.0)) for k in MAT_NUMBERS}}
-    if isinstance(entry.get("conductivity"), list):  # a tensor: edited as its text
-        form["conductivity"] = json.dumps(entry["conductivity"])
+    if isinstance(entry.get("conductivity"), list):  # a tensor: edited as its text, one row a line
+        form["conductivity"] = tensor_text(entry["conductivity"])
     form |= source_form(entry.get("source"), read_table)
     return form | ({"label": entry["label"]} if "label" in entry else {})
+
+
+def tensor_text(rows) -> str:
+    """A 3x3 list as text with one row a line, e.g. ``[[0.19, 0, 0],\\n [0, 0.19, 0],\\n [0, 0, 0.17]]``."""
+    if not isinstance(rows, list) or not all(isinstance(r, list) for r in rows):
+        return json.dumps(rows)
+    return "[" + ",\n ".join(json.dumps(r) for r in rows) + "]"
 
 
 def _as_number(value):
@@ -55,17 +62,24 @@ def differs(a, b) -> bool:
         return re.sub(r"\s+", "", str(a)) != re.sub(r"\s+", "", str(b))
 
 
+def material_choices(form: dict | None) -> list:
+    """Items of the material selector: the library, then the region's own label or 'Custom values'."""
+    label = (form or {}).get("label") if (form or {}).get("preset") == "custom" else None
+    return LIBRARY_ITEMS + [{"value": "custom", "title": str(label) if label else CUSTOM_TITLE}]
+
+
 def register(panel, validate) -> None:
     """Material editor handlers; ``validate(panel)`` checks the case after each edit."""
     state = panel.state
     state.update({f"hs_m_{k}": None for k in MAT_FIELDS})
-    state.hs_library = LIBRARY_ITEMS + [{"value": "custom", "title": CUSTOM_TITLE}]
+    state.hs_library = material_choices(None)
 
     @state.change("hs_region")
     def on_region(hs_region, **_):
         form = panel.mats.get(hs_region)
         if form is not None:
             state.update({f"hs_m_{k}": form[k] for k in MAT_FIELDS})
+        state.hs_library = material_choices(form)
 
     @state.change("hs_m_preset")
     def on_preset(hs_m_preset, **_):
@@ -86,4 +100,5 @@ def register(panel, validate) -> None:
         if lib is not None and any(differs(form[k], getattr(lib, k)) for k in MAT_NUMBERS):
             form["preset"] = state.hs_m_preset = "custom"
         panel.mats[region] = form
+        state.hs_library = material_choices(form)
         validate(panel)

@@ -137,12 +137,18 @@ def materials_section(panel) -> None:
     with section("Materials", "materials", "mdi-cube-scan"), v3.VExpansionPanelText():
         v3.VSelect(v_model=("hs_region",), items=("hs_regions",), label="Region", density="compact",
                    variant="outlined", hide_details=True, classes="mb-2", id="hs-region")
-        v3.VSelect(v_model=("hs_m_preset",), items=("hs_library",), label="Material", density="compact",
-                   variant="outlined", hide_details=True, classes="mb-2", id="hs-preset")
+        with v3.VSelect(v_model=("hs_m_preset",), items=("hs_library",), label="Material", density="compact",
+                        variant="outlined", hide_details=True, classes="mb-2 hs-preset", id="hs-preset"):
+            with v3.Template(v_slot_selection="{ item }"):  # a case's long label wraps instead of being cut
+                html.Span("{{ item.title }}", classes="hs-wrap", id="hs-preset-title")
         r = "'material.' + hs_region + '."
         number("hs_m_density", "Density", "kg/m³", f"{r}density'", id="hs-density")
         number("hs_m_specific_heat", "Specific heat", "J/(kg K)", f"{r}specific_heat'", id="hs-cp")
-        number("hs_m_conductivity", "Conductivity", "W/(m K)", f"{r}conductivity'", id="hs-k")
+        # a text area that grows, so a conductivity tensor shows whole (one row a line)
+        v3.VTextarea(v_model=("hs_m_conductivity",), label="Conductivity (a number, or a 3×3 tensor)",
+                     suffix="W/(m K)", rows=1, auto_grow=True, density="compact", variant="outlined",
+                     hide_details="auto", error_messages=errors_of(f"{r}conductivity'"), classes="mb-2 hs-mono",
+                     id="hs-k")
         note("Library values: {{ hs_library_note }}. Check them against the supplier's data.", classes="mb-2")
         source_editor()
 

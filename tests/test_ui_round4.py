@@ -109,7 +109,7 @@ def test_a_heat_source_on_a_region_warms_it_is_exported_and_runs_alike_in_the_cl
     field_message(page, "#hs-src-value", "'lots' is not a number")
     page.wait_for_selector("#hs-run[disabled]", timeout=15_000)
     fill(page, "#hs-src-value", SOURCE)
-    page.locator("#hs-setup-drawer").screenshot(path=str(shots / "source.png"))
+    page.locator(".hs-section", has_text="Materials").first.screenshot(path=str(shots / "source.png"))
     run_and_wait(page, 1)
     hot = read_probe_csv(download(page, "#hs-export-probes", tmp_path / "source.csv"))
 
@@ -167,3 +167,23 @@ def test_a_source_from_a_case_is_shown_checked_at_its_field_and_exported(page, t
     assert case["material"]["sleeve"]["source"] == {"ramp": {"start": 0.0, "end": 5e5, "at": 60.0, "over": 90.0}}
     assert "source" not in case["material"]["platen"]
     assert case["material"]["sleeve"]["label"].startswith("stainless steel")  # the label still holds
+
+
+def test_a_case_material_label_and_a_conductivity_tensor_are_shown_whole(page, data_dir, shots):
+    open_section(page, "Mesh")
+    page.locator(".hs-file", has_text="lblock_cooling.toml").click()
+    page.wait_for_selector("#hs-fact-unit >> text=from lblock_cooling.toml", timeout=30_000)
+    open_section(page, "Materials")
+    given = tomllib.loads((data_dir / "lblock_cooling.toml").read_text())["material"]["region"]
+    title = page.locator("#hs-preset-title")
+    wait_for(lambda: title.inner_text() == given["label"], 15, what="the case's label in the material selector")
+    field = page.locator("#hs-k")
+    text = field.input_value()
+    assert [[float(v) for v in row.strip(" [],").split(",")] for row in text.splitlines()] == given["conductivity"]
+    for box in (title, field):  # nothing cut off: the whole text fits its box
+        assert box.evaluate("e => e.scrollWidth <= e.clientWidth + 1"), box
+    page.locator(".hs-section", has_text="Materials").first.screenshot(path=str(shots / "label-tensor.png"))
+    # Spacing typed into the tensor is no change of value: the label still describes it.
+    fill(page, "#hs-k", text.replace("\n", " "))
+    page.wait_for_selector("#hs-run:not([disabled])", timeout=15_000)
+    assert title.inner_text() == given["label"]
