@@ -20,6 +20,7 @@ from heatsoak.core.stepping.theta import THETA_PRESETS
 from . import files, h_materials, plots
 from .forms import KIND_UNITS, KINDS, FormError, case_from_forms, default_bc, issues_by_field, probe_entry, schedule_value
 from .h_materials import material_form
+from .probenotes import placeable, probe_notes
 from .scene import group_colour
 
 BC_FIELDS = ("kind", "shape", "value", "start", "end", "at", "over", "table", "h")
@@ -39,7 +40,7 @@ def register(panel) -> None:
         "hs_library_note": SOURCE_NOTE, "hs_preview": "", "hs_err": {}, "hs_run_reason": "Open a mesh first",
         "hs_t_end": 600.0, "hs_t_step": 10.0, "hs_t_theta": 1.0, "hs_t_mass": "consistent", "hs_initial": 20.0,
         "hs_every": 1, "hs_theta_hint": "", "hs_probes": [], "hs_p_name": "P1", "hs_p_x": 0.0, "hs_p_y": 0.0,
-        "hs_p_z": 0.0, "hs_p_threshold": None, "hs_probe_error": "", "hs_case_name": "",
+        "hs_p_z": 0.0, "hs_p_threshold": None, "hs_probe_error": "", "hs_probe_notes": {}, "hs_case_name": "",
     })
     state.update({f"hs_e_{k}": v for k, v in default_bc().items()})
     register_conditions(panel)
@@ -147,15 +148,6 @@ def register_probes(panel) -> None:
             state.hs_group = panel.mesh.group_names[group]
 
 
-def _placeable(probe: dict) -> bool:
-    """Whether the probe's position reads as three numbers (it is marked in 3D even if another entry is wrong)."""
-    try:
-        [float(probe[c]) for c in "xyz"]
-    except (KeyError, TypeError, ValueError):
-        return False
-    return all(np.isfinite(float(probe[c])) for c in "xyz")
-
-
 def next_probe_name(probes) -> str:
     """The first free name P1, P2, ..."""
     taken = {p["name"] for p in probes}
@@ -239,10 +231,11 @@ def probes_changed(panel) -> None:
     state = panel.state
     if panel.mesh is not None:
         scale = UNITS.get(state.hs_unit, 1.0)
-        shown = [p for p in state.hs_probes if _placeable(p)]  # a case file may hold unreadable ones
+        shown = [p for p in state.hs_probes if placeable(p)]  # a case file may hold unreadable ones
         pts = [[float(p[c]) * scale for c in "xyz"] for p in shown]
         panel.scene.show_probes(np.array(pts).reshape(-1, 3), [p["name"] for p in shown])
         panel.update_view()
+    state.hs_probe_notes = {} if panel.mesh is None else probe_notes(panel.mesh, state.hs_probes, state.hs_unit)
     validate(panel)
 
 

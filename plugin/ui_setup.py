@@ -204,7 +204,7 @@ def probes_section(panel) -> None:
                 for h in ("Name", "Position ({{ hs_unit }})", "Threshold", ""):
                     html.Th(h, classes="text-caption")
             with html.Tbody(), v3.Template(v_for="(p, i) in hs_probes", key="p.name"):
-                with html.Tr(classes=("hs_err['probe.' + i] ? 'hs-probe-bad' : ''",)):
+                with html.Tr(classes=("hs_err['probe.' + i] || hs_probe_notes[i] ? 'hs-probe-bad' : ''",)):
                     html.Td("{{ p.name }}", classes="text-caption")
                     html.Td("{{ [p.x, p.y, p.z].map(v => Number(v).toPrecision(4)).join(', ') }}",
                             classes="text-caption")
@@ -215,6 +215,10 @@ def probes_section(panel) -> None:
                 with html.Tr(v_if="hs_err['probe.' + i]", classes="hs-probe-issue"):
                     html.Td("{{ p.name }} · {{ hs_err['probe.' + i].join(' ') }}", colspan=4,
                             classes="text-caption text-error")
+                with html.Tr(v_if="hs_probe_notes[i] && !hs_err['probe.' + i]", classes="hs-probe-issue hs-probe-note"):
+                    with html.Td(colspan=4, classes="text-caption hs-reason"):
+                        v3.VIcon("mdi-information-outline", size="x-small", classes="mr-1")
+                        html.Span("{{ p.name }} · {{ hs_probe_notes[i] }}")
         with v3.VRow(dense=True):
             with v3.VCol(cols=4):
                 number("hs_p_name", "Name", id="hs-p-name")

@@ -187,3 +187,26 @@ def test_a_case_material_label_and_a_conductivity_tensor_are_shown_whole(page, d
     fill(page, "#hs-k", text.replace("\n", " "))
     page.wait_for_selector("#hs-run:not([disabled])", timeout=15_000)
     assert title.inner_text() == given["label"]
+
+
+def test_a_probe_typed_just_outside_the_surface_shows_where_it_is_read(page, data_dir, shots):
+    import meshio
+
+    top = meshio.read(data_dir / "lblock.vtu").points[:, 2].max()  # the flat top face, z = top [m]
+    open_section(page, "Probes")
+    for key, value in (("name", "lid"), ("x", 0.095), ("y", 0.005), ("z", f"{top + 0.0002:g}")):
+        fill(page, f"#hs-p-{key}", value)
+    page.click("#hs-add-probe")
+    row = page.locator("#hs-probe-list tr.hs-probe-note", has_text="lid")
+    row.wait_for(timeout=15_000)
+    # The nearest point of a flat face is the foot of the perpendicular: straight down onto z = top.
+    assert "lies 0.0002 m outside the mesh surface" in row.inner_text()
+    assert f"nearest surface point (0.095, 0.005, {top:g}) m" in row.inner_text()
+    page.locator(".hs-section", has_text="Probes").first.screenshot(path=str(shots / "probe-note.png"))
+    # Probes inside get no note; moving this one inside clears its note.
+    assert page.locator("#hs-probe-list tr.hs-probe-note").count() == 1
+    fill(page, "#hs-p-name", "lid")
+    fill(page, "#hs-p-z", f"{top - 0.001:g}")
+    page.click("#hs-add-probe")
+    page.wait_for_selector("#hs-probe-list tr.hs-probe-note", state="detached", timeout=15_000)
+    assert page.locator("#hs-probe-list tbody tr", has_text="lid").count() == 1
