@@ -13,7 +13,7 @@ from pathlib import Path
 import imageio.v3 as iio
 from heatsoak.core.case import case_to_toml
 
-from . import h_results, h_setup
+from . import h_guard, h_results, h_setup
 
 MIME = {"toml": "text/plain", "zip": "application/zip", "csv": "text/csv", "png": "image/png",
         "gif": "image/gif", "mp4": "video/mp4"}
@@ -37,6 +37,7 @@ def register(panel) -> None:
         if errors:
             state.hs_export_error = f"the case has unreadable entries: {errors[0]}"
             return None
+        h_guard.mark_kept(panel)
         return case_to_toml(data)
 
     @server.trigger("hs_export_bundle")
@@ -47,6 +48,7 @@ def register(panel) -> None:
         if errors or panel.mesh_path is None:
             state.hs_export_error = "open a mesh and fix the marked entries first"
             return None
+        h_guard.mark_kept(panel)
         return attach(case_bundle(data, panel.mesh_path))
 
     @server.trigger("hs_export_results")

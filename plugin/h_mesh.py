@@ -10,7 +10,7 @@ from heatsoak.core.inspect import summarize
 from heatsoak.core.meshread import UNITS, read_mesh
 from heatsoak.core.schedule import read_table_csv
 
-from . import files, h_materials, h_results, h_setup
+from . import files, h_guard, h_materials, h_results, h_setup
 from .forms import bc_form_from_case
 
 
@@ -44,7 +44,7 @@ def register(panel) -> None:
         except InputError as exc:
             state.hs_mesh_error = str(exc)
             return
-        (open_case if kind == "case" else open_bare_mesh)(panel, target)
+        h_guard.request_open(panel, open_case if kind == "case" else open_bare_mesh, target)
 
     @ctrl.set("hs_up_dir")
     def up_dir():
@@ -89,7 +89,7 @@ def register_choices(panel) -> None:
         except InputError as exc:
             state.hs_upload_error = str(exc)
             return
-        (open_case if path.suffix == ".toml" else open_bare_mesh)(panel, path)
+        h_guard.request_open(panel, open_case if path.suffix == ".toml" else open_bare_mesh, path, upload=True)
 
 
 def reload_mesh(panel) -> None:

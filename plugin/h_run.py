@@ -12,7 +12,7 @@ from heatsoak.core.case import case_from_data, save_case
 from heatsoak.core.errors import HeatsoakError
 from heatsoak.core.runner import run_case
 
-from . import h_results, h_setup
+from . import h_guard, h_results, h_setup
 
 #: Seconds between progress updates pushed to the browser.
 POLL_S = 0.25
@@ -79,6 +79,7 @@ def register(panel) -> None:
                       "hs_run_error": "", "hs_solver_reason": ""})
         panel.job.data = data
         panel.job.thread.start()
+        h_guard.mark_kept(panel)  # a run keeps the set-up it ran (its case.toml is in the results)
         asyncio.ensure_future(watch(panel))
 
     @ctrl.set("hs_cancel")

@@ -13,7 +13,7 @@ from __future__ import annotations
 import tempfile
 from pathlib import Path
 
-from . import h_export, h_mesh, h_results, h_run, h_setup, ui_results, ui_runs, ui_setup
+from . import h_export, h_guard, h_mesh, h_results, h_run, h_setup, ui_results, ui_runs, ui_setup
 from .pvtrame import view_for
 from .runstore import RunStore
 from .scene import Scene
@@ -57,14 +57,17 @@ class HeatPanel:
         self.views = []
         self.state.hs_disclaimer = DISCLAIMER
         server.enable_module({"serve": {"__heatsoak": str(Path(__file__).parent)}, "styles": ["__heatsoak/style.css"]})
-        for module in (h_mesh, h_setup, h_run, h_results, h_export):
+        for module in (h_mesh, h_setup, h_run, h_results, h_export, h_guard):
             module.register(self)
 
     def open_path(self, path) -> bool:
         """Open a mesh file or a case file (``.toml``) from anywhere the app was told to."""
         path = Path(path)
         opener = h_mesh.open_case if path.suffix.lower() == ".toml" else h_mesh.open_bare_mesh
-        return opener(self, path)
+        opened = opener(self, path)
+        if opened:
+            h_guard.mark_kept(self)
+        return opened
 
     # ----------------------------------------------------------- view sync
     def update_view(self) -> None:

@@ -19,6 +19,21 @@ def build(panel) -> None:
         materials_section(panel)
         time_section(panel)
         probes_section(panel)
+    unsaved_dialog(panel)
+
+
+def unsaved_dialog(panel) -> None:
+    """Asks before another file replaces a set-up with changes not yet run or exported."""
+    ctrl = panel.ctrl
+    with v3.VDialog(v_model=("hs_guard", False), max_width=460, persistent=True), \
+            v3.VCard(id="hs-guard", classes="pa-2"):
+        v3.VCardTitle("Open {{ hs_guard_name }}?", classes="text-subtitle-1")
+        v3.VCardText("{{ hs_guard_text }} To keep them, run the case or export it first.", id="hs-guard-text")
+        with v3.VCardActions():
+            v3.VSpacer()
+            v3.VBtn("Keep editing", variant="flat", color="#2f5d50", click=ctrl.hs_guard_keep, id="hs-guard-keep")
+            v3.VBtn("Discard changes and open", variant="text", color="#b3261e", click=ctrl.hs_guard_open,
+                    id="hs-guard-open")
 
 
 def mesh_section(panel) -> None:

@@ -23,7 +23,9 @@ sys.path.insert(0, str(Path(__file__).parent / "browser"))
 from uidriver import (
     browse,
     choose,
+    discard_if_asked,
     fill,
+    open_listed,
     open_section,
     select_group,
     serve,
@@ -192,7 +194,7 @@ def test_bad_table_is_marked_at_the_field_without_traceback(page, server, shots)
 
 
 def test_mesh_without_tetrahedra_gives_a_clear_message(page, server, shots):
-    page.locator(".hs-file", has_text="flat.stl").click()
+    open_listed(page, "flat.stl")
     alert = page.locator("#hs-mesh-error")
     alert.wait_for(timeout=15_000)
     text = alert.inner_text()
@@ -280,7 +282,7 @@ def test_clicking_the_view_selects_a_group_and_places_a_probe(page, shots):
 
 def test_untagged_mesh_is_split_by_the_feature_angle(page, shots):
     open_section(page, "Mesh")
-    page.locator(".hs-file", has_text="lblock.vtu").click()
+    open_listed(page, "lblock.vtu")
     page.wait_for_selector("#hs-facts >> text=lblock.vtu", timeout=30_000)
     settle(page, 1000)
     sharp = page.locator(".hs-group").count()
@@ -295,5 +297,6 @@ def test_an_uploaded_mesh_is_opened(page, data_dir, tmp_path):
     shutil.copy(data_dir / "lblock.vtu", upload)
     open_section(page, "Mesh")
     page.set_input_files("#hs-upload", str(upload))
+    discard_if_asked(page)
     page.wait_for_selector("#hs-facts >> text=uploaded_part.vtu", timeout=30_000)
     assert page.locator(".hs-group").count() >= 1

@@ -15,7 +15,7 @@ import pytest
 import tomllib
 
 sys.path.insert(0, str(Path(__file__).parent / "browser"))
-from uidriver import browse, choose, fill, open_section, serve, wait_for
+from uidriver import browse, choose, fill, open_listed, open_section, serve, wait_for
 
 pytestmark = pytest.mark.browser
 playwright_api = pytest.importorskip("playwright.sync_api")
@@ -70,7 +70,7 @@ def size_text(sides, scale: float) -> str:
 
 def test_a_bare_mesh_opened_after_a_mm_case_is_read_in_metres_and_says_so(page, data_dir):
     assert fact(page, "Read in") == "mm · from platen_warmup.toml"
-    page.locator(".hs-file", has_text="lblock.vtu").click()
+    open_listed(page, "lblock.vtu")
     page.wait_for_selector("#hs-fact-unit >> text=the file states no unit", timeout=30_000)
     assert page.locator("#hs-unit").input_value() == "m"
     sides = extent(data_dir / "lblock.vtu")
@@ -91,7 +91,7 @@ def test_files_added_to_the_data_folder_appear_after_a_refresh(page, data_dir):
 
 
 def test_a_bad_threshold_from_a_case_is_shown_on_the_probe_row_and_at_run(page):
-    page.locator(".hs-file", has_text="badthreshold.toml").click()
+    open_listed(page, "badthreshold.toml")
     page.wait_for_selector("#hs-fact-unit >> text=from badthreshold.toml", timeout=30_000)
     open_section(page, "Probes")
     issue = page.locator("#hs-probe-list .hs-probe-issue")
@@ -112,7 +112,7 @@ def test_a_probe_message_does_not_outlive_the_mesh_it_was_typed_for(page):
     page.click("#hs-add-probe")
     page.wait_for_selector("#hs-probe-error >> text='abc' is not a number", timeout=15_000)
     open_section(page, "Mesh")
-    page.locator(".hs-file", has_text="platen_warmup.toml").click()
+    open_listed(page, "platen_warmup.toml")
     page.wait_for_selector("#hs-fact-unit >> text=from platen_warmup.toml", timeout=30_000)
     page.wait_for_selector("#hs-probe-error", state="detached", timeout=15_000)
 
@@ -138,7 +138,7 @@ def test_results_in_a_1280_by_800_window_keep_a_usable_scrubber_units_and_the_no
 def test_a_demo_case_opens_ready_to_run_and_exports_what_the_forms_do_not_edit(page, data_dir, case, tmp_path):
     """A conductivity tensor, a named theta, start_steps, the title and material labels survive the UI."""
     open_section(page, "Mesh")
-    page.locator(".hs-file", has_text=case).click()
+    open_listed(page, case)
     page.wait_for_selector(f"#hs-fact-unit >> text=from {case}", timeout=30_000)
     page.wait_for_selector("#hs-run:not([disabled])", timeout=15_000)
     assert page.locator("#hs-run-reason").count() == 0

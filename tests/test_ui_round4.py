@@ -210,3 +210,67 @@ def test_a_probe_typed_just_outside_the_surface_shows_where_it_is_read(page, dat
     page.click("#hs-add-probe")
     page.wait_for_selector("#hs-probe-list tr.hs-probe-note", state="detached", timeout=15_000)
     assert page.locator("#hs-probe-list tbody tr", has_text="lid").count() == 1
+
+
+def guard_shown(page) -> bool:
+    return page.locator("#hs-guard").is_visible()
+
+
+def open_file(page, name: str) -> None:
+    open_section(page, "Mesh")
+    page.locator(".hs-file", has_text=name).click()
+
+
+def test_opening_another_file_asks_first_when_the_set_up_has_changes(page, shots):
+    # The probe added above is a change not yet run or exported.
+    open_file(page, "platen_warmup.toml")
+    page.wait_for_selector("#hs-guard", timeout=15_000)
+    text = page.inner_text("#hs-guard")
+    assert "lblock_cooling.toml" in text and "platen_warmup.toml" in text and "not run or exported" in text
+    page.wait_for_timeout(400)  # the dialog fades in
+    page.screenshot(path=str(shots / "guard.png"))
+    page.click("#hs-guard-keep")
+    page.wait_for_selector("#hs-guard", state="detached", timeout=15_000)
+    assert page.locator("#hs-fact-unit", has_text="from lblock_cooling.toml").count() == 1
+    open_section(page, "Probes")
+    assert page.locator("#hs-probe-list tbody tr", has_text="lid").count() == 1  # the edit is still there
+    # Asked again, the user lets the changes go.
+    open_file(page, "platen_warmup.toml")
+    page.click("#hs-guard-open")
+    page.wait_for_selector("#hs-fact-unit >> text=from platen_warmup.toml", timeout=30_000)
+    page.wait_for_selector("#hs-guard", state="hidden", timeout=15_000)
+
+
+def test_no_question_when_nothing_changed_since_opening_running_or_exporting(page, tmp_path):
+    open_file(page, "lblock_cooling.toml")  # nothing changed since the demo was opened
+    page.wait_for_selector("#hs-fact-unit >> text=from lblock_cooling.toml", timeout=30_000)
+    assert not guard_shown(page)
+    open_section(page, "Start and time")
+    fill(page, "#hs-end", 120)  # a change, then a run of it
+    run_and_wait(page, len(page.locator(".hs-run-row").all()))
+    to_setup(page)
+    open_file(page, "platen_warmup.toml")
+    page.wait_for_selector("#hs-fact-unit >> text=from platen_warmup.toml", timeout=30_000)
+    assert not guard_shown(page)
+    open_section(page, "Start and time")
+    fill(page, "#hs-initial", 30)  # a change, then an export of it
+    download(page, "#hs-export-case", tmp_path / "case.toml")
+    open_file(page, "lblock_cooling.toml")
+    page.wait_for_selector("#hs-fact-unit >> text=from lblock_cooling.toml", timeout=30_000)
+    assert not guard_shown(page)
+
+
+def test_an_upload_asks_first_too_and_keeping_clears_the_upload_field(page, data_dir, tmp_path):
+    open_section(page, "Start and time")
+    fill(page, "#hs-initial", 35)
+    upload = tmp_path / "other.vtu"
+    shutil.copy(data_dir / "lblock.vtu", upload)
+    open_section(page, "Mesh")
+    page.set_input_files("#hs-upload", str(upload))
+    page.wait_for_selector("#hs-guard >> text=Open other.vtu?", timeout=30_000)
+    page.click("#hs-guard-keep")
+    page.wait_for_selector("#hs-guard", state="detached", timeout=15_000)
+    wait_for(lambda: page.locator("#hs-upload").input_value() == "", 15, what="the upload field to clear")
+    assert page.locator("#hs-fact-unit", has_text="from lblock_cooling.toml").count() == 1
+    open_section(page, "Start and time")
+    assert float(page.locator("#hs-initial").input_value()) == 35

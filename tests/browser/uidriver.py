@@ -167,3 +167,21 @@ def open_section(page, title: str) -> None:
     if "v-expansion-panel--active" not in (panel.get_attribute("class") or ""):
         panel.locator(".v-expansion-panel-title").click()
         page.wait_for_timeout(300)
+
+
+def discard_if_asked(page, ms: int = 1500) -> None:
+    """Answer the question asked before a set-up with changes is replaced (if it comes) by opening anyway."""
+    from playwright.sync_api import TimeoutError as PlaywrightTimeout
+
+    try:
+        page.wait_for_selector("#hs-guard-open", state="visible", timeout=ms)
+    except PlaywrightTimeout:
+        return
+    page.click("#hs-guard-open")
+    page.wait_for_selector("#hs-guard", state="hidden", timeout=15_000)
+
+
+def open_listed(page, name: str) -> None:
+    """Click a file of the data-folder list, letting any changes of the set-up go."""
+    page.locator(".hs-file", has_text=name).first.click()
+    discard_if_asked(page)
