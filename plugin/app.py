@@ -7,6 +7,7 @@ a layout; :func:`heatsoak.plugin.mount` adds the panel. The command binds
 
 from __future__ import annotations
 
+import logging
 import os
 import sys
 from pathlib import Path
@@ -62,6 +63,54 @@ def build_app(server, input_path=None, data_dir=None, work_dir=None, view_mode: 
     return heat
 
 
+#: Loggers that report a browser tab closed while the server was still writing to it.
+CLOSE_NOISE_LOGGERS = ("aiohttp.server", "aiohttp.web", "asyncio", "wslink.protocol")
+
+
+class ClosedConnectionFilter(logging.Filter):
+    """Drops the tracebacks logged when a browser goes away in the middle of a message: a closed
+    connection is a normal end of a session, not an error of the server.
+
+    The web-socket layer logs an error of a call as three records ("Exception raised", the
+    exception's repr, the traceback text); those of a closed connection are dropped, the others
+    are kept, the first two joined in one line.
+    """
+
+    def __init__(self):
+        super().__init__()
+        self._pending = self._drop_trace = False
+
+    def filter(self, record: logging.LogRecord) -> bool:
+        exc = record.exc_info[1] if record.exc_info else None
+        if isinstance(exc, ConnectionResetError):
+            return False
+        if not record.name.startswith("wslink"):
+            return True
+        msg = record.getMessage()
+        if msg == "Exception raised":
+            self._pending = True
+            return False
+        if self._pending:
+            self._pending = False
+            if "ConnectionResetError" in msg:
+                self._drop_trace = True
+                return False
+            record.msg, record.args = f"Exception raised: {msg}", ()
+            return True
+        if self._drop_trace:
+            self._drop_trace = False
+            return not msg.startswith("Traceback")
+        return True
+
+
+def quiet_closed_connections() -> None:
+    """Install one :class:`ClosedConnectionFilter` on each of the web server's loggers (once)."""
+    for name in CLOSE_NOISE_LOGGERS:
+        log = logging.getLogger(name)
+        if not any(isinstance(f, ClosedConnectionFilter) for f in log.filters):
+            log.addFilter(ClosedConnectionFilter())
+
+
 def _argv_for_trame(args, key) -> list:
     """The options trame's own parser reads at start (it parses sys.argv)."""
     argv = ["heatsoak-ui", "--host", args.host, "--port", str(args.port), "--timeout", "0"]
@@ -91,6 +140,7 @@ def cmd_ui(args) -> int:
     build_app(server, input_path=input_path, data_dir=data_dir, view_mode=os.environ.get("HEATSOAK_UI_VIEW", "server"))
     print(access.notice(args.port), flush=True)
     sys.argv = _argv_for_trame(args, access.key)
+    quiet_closed_connections()
     server.start(host=access.host, port=args.port, timeout=0, open_browser=not args.server,
                  show_connection_info=False)
     return 0
