@@ -58,7 +58,14 @@ def register(panel) -> None:
     """Defaults and handlers of the run bar."""
     state, ctrl = panel.state, panel.ctrl
     state.update({"hs_running": False, "hs_progress": 0.0, "hs_progress_text": "", "hs_run_error": "",
-                  "hs_solver_reason": ""})
+                  "hs_solver_reason": "", "hs_run_request": 0})
+
+    @state.change("hs_run_request")
+    def run_requested(hs_run_request=0, **_):
+        """Run pressed. The button counts presses in the state instead of calling the server
+        directly, so the press travels with (never ahead of) edits the browser has not sent yet."""
+        if hs_run_request:
+            start_run()
 
     @ctrl.set("hs_run")
     def start_run():

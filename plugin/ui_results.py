@@ -15,7 +15,7 @@ def run_bar(panel) -> None:
     ctrl = panel.ctrl
     with html.Div(classes="d-flex align-center ga-3 px-3 py-2 hs-runbar", id="hs-runbar"):
         v3.VBtn("Run", prepend_icon="mdi-play-circle-outline", color="#2f5d50", variant="flat",
-                disabled=("hs_running || !!hs_run_reason",), click=ctrl.hs_run, id="hs-run")
+                disabled=("hs_running || !!hs_run_reason",), click="hs_run_request += 1", id="hs-run")
         v3.VBtn("Cancel", prepend_icon="mdi-stop-circle-outline", v_if="hs_running", variant="outlined",
                 color="#8c3b2e", click=ctrl.hs_cancel, id="hs-cancel")
         with html.Div(classes="flex-grow-1", style="min-width: 0"):

@@ -274,3 +274,25 @@ def test_an_upload_asks_first_too_and_keeping_clears_the_upload_field(page, data
     assert page.locator("#hs-fact-unit", has_text="from lblock_cooling.toml").count() == 1
     open_section(page, "Start and time")
     assert float(page.locator("#hs-initial").input_value()) == 35
+
+
+def test_run_pressed_straight_after_typing_runs_what_was_typed(page):
+    """The press must not overtake an edit the browser has not yet sent to the server."""
+    open_section(page, "Start and time")
+    step = float(page.locator("#hs-step").input_value())
+    end = float(page.locator("#hs-end").input_value())
+    new_end = 2 * step if end != 2 * step else 3 * step
+    runs = page.locator(".hs-run-row").count()
+    page.wait_for_selector("#hs-run:not([disabled])", timeout=15_000)
+    page.evaluate(
+        """(value) => {
+            const input = document.querySelector('#hs-end');
+            input.value = String(value);
+            input.dispatchEvent(new Event('input', {bubbles: true}));
+            document.querySelector('#hs-run').click();  // in the same task: no time to sync
+        }""",
+        new_end,
+    )
+    wait_for(lambda: page.locator(".hs-run-row").count() > runs, 90, what="the run to be listed")
+    page.wait_for_selector("#hs-progress-text >> text=complete", timeout=60_000)
+    assert f"t = {new_end:g} s" in page.inner_text("#hs-progress-text")
