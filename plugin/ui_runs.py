@@ -16,9 +16,20 @@ DOWNLOADS = (
 )
 
 
+#: Client code (in a click handler) whose promise settles once the browser has sent every state edit
+#: it holds (polled for at most about 3 s), so that a call made after it never overtakes an edit typed
+#: just before. Vue's templates see no browser globals: the timer comes from the event's window.
+#: (The code must not begin like an arrow function, or Vue takes the whole click expression for the
+#: handler itself.)
+EDITS_SENT_JS = ("trame.state.flush().then(async () => { const w = $event.view; "
+                 "for (let i = 0; i < 150 && ((trame.state.dirtyKeys || {}).size || 0); i++) "
+                 "{ await new w.Promise(r => w.setTimeout(r, 20)); } })")
+
+
 def save_js(name: str, call: str, mime: str) -> str:
-    """Client code that saves what ``call`` returns, and nothing when it returns null (the handler said why)."""
-    return f"{call}.then(d => d != null && utils.download({name}, d, {mime}))"
+    """Client code that saves what ``call`` returns, and nothing when it returns null (the handler said why);
+    ``call`` is made after the pending edits are sent (the file holds what was typed)."""
+    return f"{EDITS_SENT_JS}.then(() => {call}).then(d => d != null && utils.download({name}, d, {mime}))"
 
 
 def build(panel) -> None:

@@ -296,3 +296,21 @@ def test_run_pressed_straight_after_typing_runs_what_was_typed(page):
     wait_for(lambda: page.locator(".hs-run-row").count() > runs, 90, what="the run to be listed")
     page.wait_for_selector("#hs-progress-text >> text=complete", timeout=60_000)
     assert f"t = {new_end:g} s" in page.inner_text("#hs-progress-text")
+
+
+def test_export_pressed_straight_after_typing_saves_what_was_typed(page, tmp_path):
+    """The case file holds an edit the browser had not yet sent when Export was pressed."""
+    open_section(page, "Start and time")
+    initial = float(page.locator("#hs-initial").input_value()) + 7.5
+    with page.expect_download() as dl:
+        page.evaluate(
+            """(value) => {
+                const input = document.querySelector('#hs-initial');
+                input.value = String(value);
+                input.dispatchEvent(new Event('input', {bubbles: true}));
+                document.querySelector('#hs-export-case').click();  // in the same task: no time to sync
+            }""",
+            initial,
+        )
+    case = tomllib.loads(Path(dl.value.path()).read_text())
+    assert case["initial"]["temperature"] == initial
