@@ -5,6 +5,8 @@ from __future__ import annotations
 from trame.widgets import html
 from trame.widgets import vuetify3 as v3
 
+from .ui_widgets import EDITS_SENT_JS
+
 DOWNLOADS = (
     ("Case file (.toml)", "mdi-file-cog-outline", "case.toml", "hs_export_case", "text/plain", "hs-export-case"),
     ("Case and mesh (.zip)", "mdi-folder-zip-outline", "case-bundle.zip", "hs_export_bundle", "application/zip",
@@ -14,16 +16,6 @@ DOWNLOADS = (
     ("Probe values (.csv)", "mdi-table-arrow-down", "probes.csv", "hs_export_probes", "text/csv", "hs-export-probes"),
     ("Picture (.png)", "mdi-camera-outline", "view.png", "hs_export_png", "image/png", "hs-export-png"),
 )
-
-
-#: Client code (in a click handler) whose promise settles once the browser has sent every state edit
-#: it holds (polled for at most about 3 s), so that a call made after it never overtakes an edit typed
-#: just before. Vue's templates see no browser globals: the timer comes from the event's window.
-#: (The code must not begin like an arrow function, or Vue takes the whole click expression for the
-#: handler itself.)
-EDITS_SENT_JS = ("trame.state.flush().then(async () => { const w = $event.view; "
-                 "for (let i = 0; i < 150 && ((trame.state.dirtyKeys || {}).size || 0); i++) "
-                 "{ await new w.Promise(r => w.setTimeout(r, 20)); } })")
 
 
 def save_js(name: str, call: str, mime: str) -> str:

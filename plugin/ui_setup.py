@@ -5,7 +5,7 @@ from __future__ import annotations
 from trame.widgets import html
 from trame.widgets import vuetify3 as v3
 
-from .ui_widgets import errors_of, note, number, section
+from .ui_widgets import after_edits, errors_of, note, number, section
 
 FILE_ICON = "f.kind == 'folder' ? 'mdi-folder-outline' : (f.kind == 'case' ? 'mdi-file-cog-outline' : 'mdi-cube-outline')"
 
@@ -49,8 +49,8 @@ def mesh_section(panel) -> None:
                         title="List the folder again (files added since)", id="hs-refresh-files")
             with v3.VList(density="compact", classes="hs-files", max_height=170, id="hs-files"):
                 v3.VListItem(v_for="f in hs_files", key="f.path", title=("f.name",), prepend_icon=(FILE_ICON,),
-                             click=(ctrl.hs_open, "[f.path, f.kind]"), active=("hs_mesh_name == f.name",),
-                             color="#2f5d50", density="compact", classes="hs-file")
+                             click=after_edits(panel.server, ctrl.hs_open, "[f.path, f.kind]"),
+                             active=("hs_mesh_name == f.name",), color="#2f5d50", density="compact", classes="hs-file")
             v3.VFileInput(v_model=("hs_upload", None), label=("`Upload a mesh or case (up to ${hs_max_upload_mb} MB)`",),
                           density="compact", variant="outlined", prepend_icon="mdi-upload", show_size=True,
                           error_messages=("hs_upload_error ? [hs_upload_error] : []",), hide_details="auto",
@@ -243,7 +243,7 @@ def probes_section(panel) -> None:
             with v3.VCol(cols=4):
                 number("hs_p_threshold", "Threshold", "°C", id="hs-p-threshold")
         v3.VBtn("Add probe", prepend_icon="mdi-plus", size="small", variant="tonal", color="#2f5d50",
-                click=ctrl.hs_add_probe, id="hs-add-probe")
+                click=after_edits(panel.server, ctrl.hs_add_probe), id="hs-add-probe")
         html.Div("{{ hs_probe_error }}", v_if="hs_probe_error", classes="text-caption text-error",
                  id="hs-probe-error")
         note("Or choose 'place probe' above and click on the surface.")

@@ -5,6 +5,23 @@ from __future__ import annotations
 from trame.widgets import html
 from trame.widgets import vuetify3 as v3
 
+#: Client code (in a click handler) whose promise settles once the browser has sent every state edit
+#: it holds (polled for at most about 3 s), so that a call made after it never overtakes an edit typed
+#: just before. Vue's templates see no browser globals: the timer comes from the event's window.
+#: (The code must not begin like an arrow function, or Vue takes the whole click expression for the
+#: handler itself.)
+EDITS_SENT_JS = ("trame.state.flush().then(async () => { const w = $event && $event.view; "
+                 "for (let i = 0; w && i < 150 && ((trame.state.dirtyKeys || {}).size || 0); i++) "
+                 "{ await new w.Promise(r => w.setTimeout(r, 20)); } })")
+
+
+def after_edits(server, func, args: str = "") -> str:
+    """Click code calling ``func`` on the server (with the JS list ``args``) once the browser has
+    sent the edits it holds: for buttons whose handler reads fields typed just before."""
+    name = server.trigger_name(func)
+    call = f"trigger('{name}', {args})" if args else f"trigger('{name}')"
+    return f"{EDITS_SENT_JS}.then(() => {call})"
+
 
 def errors_of(field: str) -> tuple:
     """``error_messages`` binding for a case field key (a JS expression may be spliced in)."""

@@ -314,3 +314,45 @@ def test_export_pressed_straight_after_typing_saves_what_was_typed(page, tmp_pat
         )
     case = tomllib.loads(Path(dl.value.path()).read_text())
     assert case["initial"]["temperature"] == initial
+
+
+def type_and_click(page, values: dict, button: str) -> None:
+    """Type ``values`` ({input selector: value}) and press ``button`` in one browser task, giving the
+    browser no time to send the edits first."""
+    page.evaluate(
+        """([values, button]) => {
+            for (const [selector, value] of Object.entries(values)) {
+                const input = document.querySelector(selector);
+                input.value = String(value);
+                input.dispatchEvent(new Event('input', {bubbles: true}));
+            }
+            document.querySelector(button).click();
+        }""",
+        [values, button],
+    )
+
+
+def test_a_file_clicked_straight_after_an_edit_still_asks_first(page):
+    open_section(page, "Start and time")
+    initial = float(page.locator("#hs-initial").input_value()) + 2.5
+    open_section(page, "Mesh")
+    page.locator(".hs-file", has_text="platen_warmup.toml").first.evaluate("e => e.setAttribute('id', 'hs-test-file')")
+    type_and_click(page, {"#hs-initial": initial}, "#hs-test-file")
+    page.wait_for_selector("#hs-guard", timeout=15_000)
+    page.click("#hs-guard-keep")
+    page.wait_for_selector("#hs-guard", state="detached", timeout=15_000)
+    assert page.locator("#hs-fact-unit", has_text="from lblock_cooling.toml").count() == 1
+    assert float(page.locator("#hs-initial").input_value()) == initial
+
+
+def test_a_probe_added_straight_after_typing_has_the_typed_position(page, data_dir):
+    import meshio
+
+    top = meshio.read(data_dir / "lblock.vtu").points[:, 2].max()
+    open_section(page, "Probes")
+    fill(page, "#hs-p-name", "")
+    type_and_click(page, {"#hs-p-name": "quick", "#hs-p-x": 0.0925, "#hs-p-y": 0.0075, "#hs-p-z": top - 0.0015},
+                   "#hs-add-probe")
+    row = page.locator("#hs-probe-list tbody tr", has_text="quick")
+    row.wait_for(timeout=15_000)
+    assert "0.0925" in row.inner_text() and "0.0075" in row.inner_text()

@@ -125,6 +125,13 @@ def fill(page, selector: str, value) -> None:
     field.fill(str(value))
     field.dispatch_event("change")
     settle(page, 250)  # the client sends state changes in batches; let them reach the server
+    edits_sent(page)
+
+
+def edits_sent(page, timeout_ms: int = 15_000) -> None:
+    """Wait until the browser holds no state edit it has not sent to the server."""
+    page.wait_for_function("() => !((window.trame && window.trame.state && window.trame.state.dirtyKeys) || {}).size",
+                           timeout=timeout_ms)
 
 
 def choose(page, field_selector: str, option: str) -> None:
