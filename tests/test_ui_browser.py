@@ -18,15 +18,16 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-
-sys.path.insert(0, str(Path(__file__).parent / "browser"))
 from uidriver import (
+    DEMO,
+    MESHES,
     browse,
     choose,
     discard_if_asked,
     fill,
     open_listed,
     open_section,
+    require_browser,
     select_group,
     serve,
     set_condition,
@@ -36,12 +37,8 @@ from uidriver import (
 )
 
 pytestmark = pytest.mark.browser
-playwright_api = pytest.importorskip("playwright.sync_api")
-if not Path("/usr/bin/chromium").exists():
-    pytest.skip("needs Debian's chromium at /usr/bin/chromium", allow_module_level=True)
+playwright_api = require_browser()
 
-MESHES = Path(__file__).resolve().parent.parent / "meshes"
-DEMO = MESHES / "platen_warmup.toml"  # the case `heatsoak ui` opens with no argument
 
 #: An ASCII STL: a single triangle, a mesh with no tetrahedra.
 FLAT_STL = """solid flat

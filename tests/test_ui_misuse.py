@@ -5,22 +5,14 @@ One ``heatsoak ui`` server serves every test in this file, in order.
 
 from __future__ import annotations
 
-import shutil
-import sys
 from pathlib import Path
 
 import pytest
-
-sys.path.insert(0, str(Path(__file__).parent / "browser"))
-from uidriver import browse, choose, fill, open_section, serve, settle, wait_for
+from uidriver import choose, copy_demo_files, field_message, fill, open_section, require_browser, settle, wait_for
 
 pytestmark = pytest.mark.browser
-playwright_api = pytest.importorskip("playwright.sync_api")
-if not Path("/usr/bin/chromium").exists():
-    pytest.skip("needs Debian's chromium at /usr/bin/chromium", allow_module_level=True)
+playwright_api = require_browser()
 
-MESHES = Path(__file__).resolve().parent.parent / "meshes"
-DEMO = MESHES / "platen_warmup.toml"
 
 #: A case whose values have the wrong types: a word for a density and for output.every, a probe with two coordinates.
 BAD_TYPES = """[mesh]
@@ -43,30 +35,10 @@ BAD_UNIT = '[mesh]\nfile = "platen.msh"\nunit = "furlong"\n'
 @pytest.fixture(scope="module")
 def data_dir(tmp_path_factory) -> Path:
     folder = tmp_path_factory.mktemp("ui-misuse-data")
-    for name in ("platen_warmup.toml", "platen.msh", "platen_base.csv", "lblock.vtu"):
-        shutil.copy(MESHES / name, folder / name)
+    copy_demo_files(folder, ("platen_warmup.toml", "platen.msh", "platen_base.csv", "lblock.vtu"))
     (folder / "badtypes.toml").write_text(BAD_TYPES)
     (folder / "badunit.toml").write_text(BAD_UNIT)
     return folder
-
-
-@pytest.fixture(scope="module")
-def server(data_dir, tmp_path_factory):
-    yield from serve(data_dir / DEMO.name, data_dir, tmp_path_factory.mktemp("ui-misuse-log"),
-                     forbidden=("traceback", "exception"))
-
-
-@pytest.fixture(scope="module")
-def page(server):
-    yield from browse(server)
-
-
-def field_message(page, selector: str, text: str) -> str:
-    """Wait for the message containing ``text`` under the text field ``selector``."""
-    field = page.locator(selector).locator("xpath=ancestor::div[contains(@class,'v-input')]").first
-    message = field.locator(".v-messages__message", has_text=text)
-    message.wait_for(timeout=15_000)
-    return message.inner_text()
 
 
 def no_traceback(page, server) -> None:

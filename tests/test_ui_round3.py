@@ -7,47 +7,28 @@ One ``heatsoak ui`` server serves every test in this file, in order.
 from __future__ import annotations
 
 import shutil
-import sys
 from pathlib import Path
 
 import numpy as np
 import pytest
 import tomllib
-
-sys.path.insert(0, str(Path(__file__).parent / "browser"))
-from uidriver import browse, choose, fill, open_listed, open_section, serve, wait_for
+from uidriver import DEMO, choose, copy_demo_files, fill, open_listed, open_section, require_browser, wait_for
 
 pytestmark = pytest.mark.browser
-playwright_api = pytest.importorskip("playwright.sync_api")
-if not Path("/usr/bin/chromium").exists():
-    pytest.skip("needs Debian's chromium at /usr/bin/chromium", allow_module_level=True)
+playwright_api = require_browser()
 
-MESHES = Path(__file__).resolve().parent.parent / "meshes"
-DEMO = MESHES / "platen_warmup.toml"
 
 
 @pytest.fixture(scope="module")
 def data_dir(tmp_path_factory) -> Path:
     folder = tmp_path_factory.mktemp("ui-round3-data")
-    for name in ("platen_warmup.toml", "platen.msh", "platen_base.csv", "lblock.vtu", "lblock_cooling.toml",
-                 "platen_p2_cycling.toml", "platen_p2.msh"):
-        shutil.copy(MESHES / name, folder / name)
+    copy_demo_files(folder, ("platen_warmup.toml", "platen.msh", "platen_base.csv", "lblock.vtu", "lblock_cooling.toml",
+                             "platen_p2_cycling.toml", "platen_p2.msh"))
     # the demo case with a word for the first probe's threshold
     text = DEMO.read_text()
     assert "threshold = 30" in text
     (folder / "badthreshold.toml").write_text(text.replace("threshold = 30", 'threshold = "hot"', 1))
     return folder
-
-
-@pytest.fixture(scope="module")
-def server(data_dir, tmp_path_factory):
-    yield from serve(data_dir / DEMO.name, data_dir, tmp_path_factory.mktemp("ui-round3-log"),
-                     forbidden=("traceback", "exception"))
-
-
-@pytest.fixture(scope="module")
-def page(server):
-    yield from browse(server)
 
 
 def fact(page, label: str) -> str:

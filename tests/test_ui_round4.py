@@ -16,17 +16,11 @@ from pathlib import Path
 import numpy as np
 import pytest
 import tomllib
-
-sys.path.insert(0, str(Path(__file__).parent / "browser"))
-from uidriver import browse, choose, fill, open_section, serve, wait_for
+from uidriver import DEMO, choose, copy_demo_files, field_message, fill, open_section, require_browser, wait_for
 
 pytestmark = pytest.mark.browser
-playwright_api = pytest.importorskip("playwright.sync_api")
-if not Path("/usr/bin/chromium").exists():
-    pytest.skip("needs Debian's chromium at /usr/bin/chromium", allow_module_level=True)
+playwright_api = require_browser()
 
-MESHES = Path(__file__).resolve().parent.parent / "meshes"
-DEMO = MESHES / "platen_warmup.toml"
 #: The heat source set on the platen region [W/m³] and the end time of the runs [s].
 SOURCE, END = 1e6, 200.0
 
@@ -34,8 +28,7 @@ SOURCE, END = 1e6, 200.0
 @pytest.fixture(scope="module")
 def data_dir(tmp_path_factory) -> Path:
     folder = tmp_path_factory.mktemp("ui-round4-data")
-    for name in ("platen_warmup.toml", "platen.msh", "platen_base.csv", "lblock.vtu", "lblock_cooling.toml"):
-        shutil.copy(MESHES / name, folder / name)
+    copy_demo_files(folder, ("platen_warmup.toml", "platen.msh", "platen_base.csv", "lblock.vtu", "lblock_cooling.toml"))
     # the demo with a ramped source in the sleeve, as a case file gives it
     text = DEMO.read_text()
     assert "label = \"stainless steel" in text
@@ -47,17 +40,6 @@ def data_dir(tmp_path_factory) -> Path:
 @pytest.fixture(scope="module")
 def shots(tmp_path_factory) -> Path:
     return tmp_path_factory.mktemp("ui-round4-shots")
-
-
-@pytest.fixture(scope="module")
-def server(data_dir, tmp_path_factory):
-    yield from serve(data_dir / DEMO.name, data_dir, tmp_path_factory.mktemp("ui-round4-log"),
-                     forbidden=("traceback", "exception"))
-
-
-@pytest.fixture(scope="module")
-def page(server):
-    yield from browse(server)
 
 
 def read_probe_csv(path) -> dict:
@@ -72,12 +54,6 @@ def download(page, button: str, path: Path) -> Path:
         page.click(button)
     dl.value.save_as(path)
     return path
-
-
-def field_message(page, selector: str, text: str) -> None:
-    """Wait for ``text`` among the messages of the field whose input is ``selector``."""
-    field = page.locator(selector).locator("xpath=ancestor::div[contains(@class,'v-input')]").first
-    field.locator(".v-messages__message", has_text=text).wait_for(timeout=15_000)
 
 
 def run_and_wait(page, runs_before: int) -> None:

@@ -1,4 +1,4 @@
-"""Start ``heatsoak ui`` and drive it in headless chromium (helpers for tests/test_ui_browser.py)."""
+"""Start ``heatsoak ui`` and drive it in headless chromium (helpers for the tests/test_ui_*.py browser tests)."""
 
 from __future__ import annotations
 
@@ -15,10 +15,41 @@ from pathlib import Path
 import numpy as np
 
 CHROMIUM = "/usr/bin/chromium"
+#: The demo files, and the case ``heatsoak ui`` opens with no argument.
+MESHES = Path(__file__).resolve().parent.parent.parent / "meshes"
+DEMO = MESHES / "platen_warmup.toml"
 CHROMIUM_ARGS = [
     "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
     "--disable-background-networking", "--disable-component-update", "--disable-sync",
 ]
+
+
+def require_browser():
+    """Skip the calling test module (at import) without playwright or Debian's chromium; returns
+    ``playwright.sync_api``."""
+    import pytest
+
+    api = pytest.importorskip("playwright.sync_api")
+    if not Path(CHROMIUM).exists():
+        pytest.skip(f"needs Debian's chromium at {CHROMIUM}", allow_module_level=True)
+    return api
+
+
+def copy_demo_files(folder: Path, names) -> Path:
+    """Copy the demo files ``names`` into ``folder``; returns it."""
+    import shutil
+
+    for name in names:
+        shutil.copy(MESHES / name, Path(folder) / name)
+    return Path(folder)
+
+
+def field_message(page, selector: str, text: str) -> str:
+    """Wait for the message containing ``text`` under the text field whose input is ``selector``; its text."""
+    field = page.locator(selector).locator("xpath=ancestor::div[contains(@class,'v-input')]").first
+    message = field.locator(".v-messages__message", has_text=text)
+    message.wait_for(timeout=15_000)
+    return message.inner_text()
 
 
 def free_port() -> int:
