@@ -7,6 +7,7 @@ expected answers are facts of geometry or of the heat equation named beside them
 from __future__ import annotations
 
 import json
+from contextlib import contextmanager
 
 import meshio
 import numpy as np
@@ -29,27 +30,37 @@ def _cli(capsys, *argv):
     return code, out, err
 
 
-def _gmsh_box(path, version=2.2, size=0.5, physical=False, save_all=False):
-    """A unit cube meshed by gmsh; optionally one physical volume "body" and surface "bottom" (z = 0)."""
+@contextmanager
+def _gmsh_model(name, path, version=4.1, size=0.5):
+    """A gmsh session with model ``name``: build its geometry and groups in the block; on leaving, it is
+    meshed (size ``size``) and written to ``path`` as ascii msh ``version`` (unless the block meshed
+    it already, e.g. to raise the order), then gmsh is finalised."""
     gmsh.initialize(["", "-nopopup"])
     try:
         gmsh.option.setNumber("General.Terminal", 0)
         gmsh.option.setNumber("General.NumThreads", 1)
-        gmsh.model.add("box")
-        box = gmsh.model.occ.addBox(0, 0, 0, 1, 1, 1)
-        gmsh.model.occ.synchronize()
-        if physical:
-            gmsh.model.addPhysicalGroup(3, [box], name="body")
-            bottom = gmsh.model.getEntitiesInBoundingBox(-1, -1, -1e-6, 2, 2, 1e-6, dim=2)
-            gmsh.model.addPhysicalGroup(2, [t for _, t in bottom], name="bottom")
+        gmsh.model.add(name)
         gmsh.option.setNumber("Mesh.MeshSizeMax", size)
-        gmsh.option.setNumber("Mesh.SaveAll", int(save_all))
-        gmsh.model.mesh.generate(3)
+        yield gmsh.model
+        if gmsh.model.mesh.getNodes()[0].size == 0:
+            gmsh.model.mesh.generate(3)
         gmsh.option.setNumber("Mesh.MshFileVersion", version)
         gmsh.option.setNumber("Mesh.Binary", 0)
         gmsh.write(str(path))
     finally:
         gmsh.finalize()
+
+
+def _gmsh_box(path, version=2.2, size=0.5, physical=False, save_all=False):
+    """A unit cube meshed by gmsh; optionally one physical volume "body" and surface "bottom" (z = 0)."""
+    with _gmsh_model("box", path, version, size) as model:
+        box = model.occ.addBox(0, 0, 0, 1, 1, 1)
+        model.occ.synchronize()
+        if physical:
+            model.addPhysicalGroup(3, [box], name="body")
+            bottom = model.getEntitiesInBoundingBox(-1, -1, -1e-6, 2, 2, 1e-6, dim=2)
+            model.addPhysicalGroup(2, [t for _, t in bottom], name="bottom")
+        gmsh.option.setNumber("Mesh.SaveAll", int(save_all))
     return path
 
 
@@ -105,22 +116,13 @@ def test_cells_with_physical_tag_0_beside_tagged_ones_are_untagged(tmp_path):
 
 def _gmsh_cylinder(path, order, size):
     """Cylinder of radius 10 mm along x from 0 to 40 mm, coordinates in mm, one physical volume."""
-    gmsh.initialize(["", "-nopopup"])
-    try:
-        gmsh.option.setNumber("General.Terminal", 0)
-        gmsh.option.setNumber("General.NumThreads", 1)
-        gmsh.model.add("rod")
-        tag = gmsh.model.occ.addCylinder(0, 0, 0, 40, 0, 0, 10)
-        gmsh.model.occ.synchronize()
-        gmsh.model.addPhysicalGroup(3, [tag], name="rod")
-        gmsh.option.setNumber("Mesh.MeshSizeMax", size)
-        gmsh.model.mesh.generate(3)
+    with _gmsh_model("rod", path, 4.1, size) as model:
+        tag = model.occ.addCylinder(0, 0, 0, 40, 0, 0, 10)
+        model.occ.synchronize()
+        model.addPhysicalGroup(3, [tag], name="rod")
+        model.mesh.generate(3)
         if order == 2:
-            gmsh.model.mesh.setOrder(2)
-        gmsh.option.setNumber("Mesh.MshFileVersion", 4.1)
-        gmsh.write(str(path))
-    finally:
-        gmsh.finalize()
+            model.mesh.setOrder(2)
     return path
 
 
@@ -184,27 +186,16 @@ def test_check_and_run_say_where_a_moved_probe_is_read(tmp_path, capsys):
 def _overlapping_groups(path, version):
     """Unit boxes [0,1] and [1,2] along x; physical volumes "all" (both) and "insert" (the second),
     physical surfaces "ends" (x = 0 and x = 2) and "left" (x = 0): groups that share entities."""
-    gmsh.initialize(["", "-nopopup"])
-    try:
-        gmsh.option.setNumber("General.Terminal", 0)
-        gmsh.option.setNumber("General.NumThreads", 1)
-        gmsh.model.add("bar")
-        a, b = gmsh.model.occ.addBox(0, 0, 0, 1, 1, 1), gmsh.model.occ.addBox(1, 0, 0, 1, 1, 1)
-        gmsh.model.occ.fragment([(3, a)], [(3, b)])
-        gmsh.model.occ.synchronize()
-        gmsh.model.addPhysicalGroup(3, [a, b], name="all")
-        gmsh.model.addPhysicalGroup(3, [b], name="insert")
-        x0, x2 = ([t for _, t in gmsh.model.getEntitiesInBoundingBox(x - 1e-6, -1, -1, x + 1e-6, 2, 2, dim=2)]
+    with _gmsh_model("bar", path, version, 0.5) as model:
+        a, b = model.occ.addBox(0, 0, 0, 1, 1, 1), model.occ.addBox(1, 0, 0, 1, 1, 1)
+        model.occ.fragment([(3, a)], [(3, b)])
+        model.occ.synchronize()
+        model.addPhysicalGroup(3, [a, b], name="all")
+        model.addPhysicalGroup(3, [b], name="insert")
+        x0, x2 = ([t for _, t in model.getEntitiesInBoundingBox(x - 1e-6, -1, -1, x + 1e-6, 2, 2, dim=2)]
                   for x in (0.0, 2.0))
-        gmsh.model.addPhysicalGroup(2, x0 + x2, name="ends")
-        gmsh.model.addPhysicalGroup(2, x0, name="left")
-        gmsh.option.setNumber("Mesh.MeshSizeMax", 0.5)
-        gmsh.model.mesh.generate(3)
-        gmsh.option.setNumber("Mesh.MshFileVersion", version)
-        gmsh.option.setNumber("Mesh.Binary", 0)
-        gmsh.write(str(path))
-    finally:
-        gmsh.finalize()
+        model.addPhysicalGroup(2, x0 + x2, name="ends")
+        model.addPhysicalGroup(2, x0, name="left")
     return path
 
 
