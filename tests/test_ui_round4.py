@@ -260,15 +260,7 @@ def test_run_pressed_straight_after_typing_runs_what_was_typed(page):
     new_end = 2 * step if end != 2 * step else 3 * step
     runs = page.locator(".hs-run-row").count()
     page.wait_for_selector("#hs-run:not([disabled])", timeout=15_000)
-    page.evaluate(
-        """(value) => {
-            const input = document.querySelector('#hs-end');
-            input.value = String(value);
-            input.dispatchEvent(new Event('input', {bubbles: true}));
-            document.querySelector('#hs-run').click();  // in the same task: no time to sync
-        }""",
-        new_end,
-    )
+    type_and_click(page, {"#hs-end": new_end}, "#hs-run")
     wait_for(lambda: page.locator(".hs-run-row").count() > runs, 90, what="the run to be listed")
     page.wait_for_selector("#hs-progress-text >> text=complete", timeout=60_000)
     assert f"t = {new_end:g} s" in page.inner_text("#hs-progress-text")
@@ -279,15 +271,7 @@ def test_export_pressed_straight_after_typing_saves_what_was_typed(page, tmp_pat
     open_section(page, "Start and time")
     initial = float(page.locator("#hs-initial").input_value()) + 7.5
     with page.expect_download() as dl:
-        page.evaluate(
-            """(value) => {
-                const input = document.querySelector('#hs-initial');
-                input.value = String(value);
-                input.dispatchEvent(new Event('input', {bubbles: true}));
-                document.querySelector('#hs-export-case').click();  // in the same task: no time to sync
-            }""",
-            initial,
-        )
+        type_and_click(page, {"#hs-initial": initial}, "#hs-export-case")
     case = tomllib.loads(Path(dl.value.path()).read_text())
     assert case["initial"]["temperature"] == initial
 
