@@ -229,6 +229,13 @@ def place(mesh: Mesh, points, snap: float = SNAP):
     return pts, cells, lam, distance
 
 
+def moved_note(distance: float, point, unit: str) -> str:
+    """What is said of a probe :func:`place` moved ``distance`` [m] onto the surface at ``point`` (3,) [m],
+    lengths written in ``unit``."""
+    return (f"lies {distance / UNITS[unit]:.3g} {unit} outside the mesh surface; it is read at the nearest "
+            f"surface point {_fmt_point(point, unit)}")
+
+
 def _fmt_point(p, unit: str) -> str:
     s = UNITS[unit]
     return "(" + ", ".join(f"{x / s:g}" for x in p) + f") {unit}"
@@ -274,9 +281,8 @@ class ProbeSet:
             err = ProbeError("; ".join(lines))
             err.outside = list(zip(out.tolist(), dist[out].tolist()))
             raise err
-        self.notes = [f"probe {self.names[i]!r} at {_fmt_point(given[i], unit)} lies {dist[i] / s:.3g} {unit} "
-                      f"outside the mesh surface; it is read at the nearest surface point "
-                      f"{_fmt_point(self.points[i], unit)}" for i in np.flatnonzero(dist > 0)]
+        self.notes = [f"probe {self.names[i]!r} at {_fmt_point(given[i], unit)} {moved_note(dist[i], self.points[i], unit)}"
+                      for i in np.flatnonzero(dist > 0)]
         self.nodes = mesh.cells[self.cells] if len(self.points) else np.zeros((0, mesh.cells.shape[1]), np.int64)
         xi = lam[:, 1:]
         if mesh.order == 2 and len(self.points):
