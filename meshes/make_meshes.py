@@ -21,7 +21,7 @@ from pathlib import Path
 import gmsh
 import meshio
 import numpy as np
-from heatsoak.core.meshread import read_mesh
+from heatsoak.core.mesh.read import read_mesh
 
 HERE = Path(__file__).resolve().parent
 MAX_BYTES = 2_000_000

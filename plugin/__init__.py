@@ -9,7 +9,7 @@ The UI stack is imported only when the panel is mounted.
 
 def mount(server, plotter, **kwargs):
     """Mount the heat-diffusion panel; see :func:`heatsoak.plugin.panel.mount`."""
-    from .panel import mount as _mount
+    from heatsoak.plugin.panel import mount as _mount
 
     return _mount(server, plotter, **kwargs)
 

@@ -13,9 +13,8 @@ import sys
 from pathlib import Path
 
 from heatsoak.core.errors import InputError
-
-from . import files
-from .access import decide_access
+from heatsoak.plugin.access import decide_access
+from heatsoak.plugin.load import listing
 
 #: The case opened when ``heatsoak ui`` is given no file (from a source checkout).
 MESHES = Path(__file__).resolve().parent.parent / "meshes"
@@ -29,13 +28,12 @@ def default_input() -> Path:
 
 def build_app(server, input_path=None, data_dir=None, work_dir=None, view_mode: str = "server"):
     """Lay out the bare viewer on ``server`` and mount the heat panel; returns the panel."""
+    from heatsoak.plugin.panel import mount
+    from heatsoak.plugin.pvtrame import new_plotter
+    from heatsoak.plugin.results.layout import curves, player, run_bar
     from trame.ui.vuetify3 import VAppLayout
     from trame.widgets import html
     from trame.widgets import vuetify3 as v3
-
-    from .panel import mount
-    from .pvtrame import new_plotter
-    from .ui_results import curves, player, run_bar
 
     plotter = new_plotter()
     heat = mount(server, plotter, data_dir=data_dir, work_dir=work_dir, view_mode=view_mode)
@@ -132,7 +130,7 @@ def cmd_ui(args) -> int:
         raise InputError(f"--data-dir {args.data_dir}: not a folder")
     if not input_path.exists():
         raise InputError(f"{input_path}: no such mesh or case file")
-    os.environ.setdefault("TRAME_WS_MAX_MSG_SIZE", str(files.MAX_UPLOAD_BYTES + 1_000_000))
+    os.environ.setdefault("TRAME_WS_MAX_MSG_SIZE", str(listing.MAX_UPLOAD_BYTES + 1_000_000))
     from trame.app import get_server
 
     server = get_server("heatsoak", client_type="vue3")

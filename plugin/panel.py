@@ -13,10 +13,18 @@ from __future__ import annotations
 import tempfile
 from pathlib import Path
 
-from . import h_export, h_guard, h_mesh, h_results, h_run, h_setup, ui_results, ui_runs, ui_setup
-from .pvtrame import view_for
-from .runstore import RunStore
-from .scene import Scene
+from heatsoak.plugin.export import actions as export_actions
+from heatsoak.plugin.load import actions as load_actions
+from heatsoak.plugin.load import guard
+from heatsoak.plugin.pvtrame import view_for
+from heatsoak.plugin.results import actions as results_actions
+from heatsoak.plugin.results import layout as results_layout
+from heatsoak.plugin.run import actions as run_actions
+from heatsoak.plugin.runs import layout as runs_layout
+from heatsoak.plugin.runs.store import RunStore
+from heatsoak.plugin.scene import Scene
+from heatsoak.plugin.setup import actions as setup_actions
+from heatsoak.plugin.setup import layout as setup_layout
 
 #: Shown in the panel and the app bar: what the numbers are worth.
 DISCLAIMER = (
@@ -57,16 +65,16 @@ class HeatPanel:
         self.views = []
         self.state.hs_disclaimer = DISCLAIMER
         server.enable_module({"serve": {"__heatsoak": str(Path(__file__).parent)}, "styles": ["__heatsoak/style.css"]})
-        for module in (h_mesh, h_setup, h_run, h_results, h_export, h_guard):
+        for module in (load_actions, setup_actions, run_actions, results_actions, export_actions, guard):
             module.register(self)
 
     def open_path(self, path) -> bool:
         """Open a mesh file or a case file (``.toml``) from anywhere the app was told to."""
         path = Path(path)
-        opener = h_mesh.open_case if path.suffix.lower() == ".toml" else h_mesh.open_bare_mesh
+        opener = load_actions.open_case if path.suffix.lower() == ".toml" else load_actions.open_bare_mesh
         opened = opener(self, path)
         if opened:
-            h_guard.mark_kept(self)
+            guard.mark_kept(self)
         return opened
 
     # ----------------------------------------------------------- view sync
@@ -97,15 +105,15 @@ class HeatPanel:
 
     def setup_ui(self):
         """Mesh, surfaces and conditions, materials, time, probes (for a drawer)."""
-        ui_setup.build(self)
+        setup_layout.build(self)
 
     def results_ui(self):
         """Run bar, player and curves (below the view)."""
-        ui_results.build(self)
+        results_layout.build(self)
 
     def runs_ui(self):
         """Runs kept, comparison and export (for a side drawer)."""
-        ui_runs.build(self)
+        runs_layout.build(self)
 
 
 def mount(server, plotter, **kwargs) -> HeatPanel:

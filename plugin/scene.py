@@ -8,9 +8,8 @@ from __future__ import annotations
 
 import numpy as np
 import vtk
+from heatsoak.plugin.pvtrame import pv
 from vtk.util import numpy_support
-
-from .pvtrame import pv
 
 #: Calm, distinct colours for surface groups (cycled when there are more).
 GROUP_COLOURS = (

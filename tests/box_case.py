@@ -6,8 +6,8 @@ import copy
 
 import meshio
 import numpy as np
-from heatsoak.core.case import save_case
-from heatsoak.core.generate import box_mesh
+from heatsoak.core.case.casefile import save_case
+from heatsoak.core.mesh.generate import box_mesh
 
 
 def _halves(c):

@@ -3,12 +3,12 @@
 import numpy as np
 import pytest
 import scipy.sparse as sp
-from heatsoak.core.assembly import Assembler
-from heatsoak.core.generate import box_mesh
-from heatsoak.core.linsolve import CGSolver
+from heatsoak.core.fem.assembly import Assembler
+from heatsoak.core.mesh.generate import box_mesh
+from heatsoak.core.solve.linear import CGSolver
 
 pyamg = pytest.importorskip("pyamg")
-from heatsoak.core.amg import AmgPreconditioner  # noqa: E402
+from heatsoak.core.solve.amg import AmgPreconditioner  # noqa: E402
 
 
 def _system(n=14, fourier=20.0, perturb=0.0):

@@ -11,11 +11,11 @@ import dataclasses
 import numpy as np
 import pytest
 import scipy.sparse as sp
-from heatsoak.core.assembly import Assembler
-from heatsoak.core.generate import box_mesh
-from heatsoak.core.mesh import TET_EDGES
-from heatsoak.core.meshread import build_mesh
-from heatsoak.core.topology import signed_volumes
+from heatsoak.core.fem.assembly import Assembler
+from heatsoak.core.mesh.generate import box_mesh
+from heatsoak.core.mesh.mesh import TET_EDGES
+from heatsoak.core.mesh.read import build_mesh
+from heatsoak.core.mesh.topology import signed_volumes
 from skfem import Basis, BilinearForm, ElementTetP1, ElementTetP2, FacetBasis, LinearForm, MeshTet
 from skfem.helpers import dot, grad, mul
 

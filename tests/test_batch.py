@@ -3,7 +3,7 @@
 import json
 
 from box_case import make_case
-from heatsoak.core.cli import main
+from heatsoak.core.app.cli import main
 
 
 def _case(tmp_path, name, end):

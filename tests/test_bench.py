@@ -5,8 +5,8 @@ import io
 import json
 
 import pytest
-from heatsoak.core import bench
-from heatsoak.core.cli import main
+from heatsoak.core.app import bench
+from heatsoak.core.app.cli import main
 from heatsoak.core.errors import InputError
 
 KEYS = {"size", "elements", "nodes", "assemble_s", "reassemble_s", "skfem_assemble_s", "factor_s", "step_s",

@@ -1,11 +1,11 @@
 """The maximum-principle check: warn when the computed range leaves the data's range."""
 
 import numpy as np
-from heatsoak.core.generate import box_mesh
-from heatsoak.core.problem import Boundary, Material, Problem, TimeSettings
-from heatsoak.core.results import bound_warnings, data_bounds
-from heatsoak.core.schedule import Constant, Ramp
-from heatsoak.core.stepping import ThetaMethod
+from heatsoak.core.mesh.generate import box_mesh
+from heatsoak.core.problem.problem import Boundary, Material, Problem, TimeSettings
+from heatsoak.core.problem.schedule import Constant, Ramp
+from heatsoak.core.results.record import bound_warnings, data_bounds
+from heatsoak.core.solve.stepping import ThetaMethod
 
 MESH = box_mesh((6, 6, 3), (0.06, 0.06, 0.03))
 

@@ -10,9 +10,9 @@ except ModuleNotFoundError:  # Python 3.10
 import numpy as np
 import pytest
 from box_case import BASE, make_case
-from heatsoak.core.case import case_to_toml, check_case, load_case
-from heatsoak.core.cli import main
-from heatsoak.core.schedule import Constant, Ramp, Table
+from heatsoak.core.app.cli import main
+from heatsoak.core.case.casefile import case_to_toml, check_case, load_case
+from heatsoak.core.problem.schedule import Constant, Ramp, Table
 
 
 def test_case_data_round_trips_through_toml():

@@ -1,8 +1,8 @@
 """`heatsoak check` reports an explicit theta's step above the stability limit at time.step."""
 
 from box_case import make_case
-from heatsoak.core.case import check_case
-from heatsoak.core.cli import main
+from heatsoak.core.app.cli import main
+from heatsoak.core.case.casefile import check_case
 
 
 def _explicit(step):

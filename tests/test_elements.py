@@ -5,10 +5,10 @@ from math import factorial
 
 import numpy as np
 import pytest
-from heatsoak.core.elements import tet_basis, tet_quadrature, tri_basis, tri_quadrature
-from heatsoak.core.generate import box_mesh
-from heatsoak.core.geometry import cell_volumes, face_areas, face_jacobians, isoparametric, p1_gradients
-from heatsoak.core.mesh import TET_EDGES, TET_FACES
+from heatsoak.core.mesh.generate import box_mesh
+from heatsoak.core.mesh.geometry import cell_volumes, face_areas, face_jacobians, isoparametric, p1_gradients
+from heatsoak.core.mesh.mesh import TET_EDGES, TET_FACES
+from heatsoak.core.mesh.shape import tet_basis, tet_quadrature, tri_basis, tri_quadrature
 
 #: Reference nodes of the 10-node tetrahedron and the 6-node triangle (node order of core.mesh).
 TET_NODES = np.array([[0, 0, 0], [1, 0, 0], [0, 1, 0], [0, 0, 1]], float)

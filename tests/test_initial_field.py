@@ -4,10 +4,10 @@ import meshio
 import numpy as np
 import pytest
 from box_case import make_case
-from heatsoak.core.case import load_case
-from heatsoak.core.cli import main
-from heatsoak.core.fieldio import read_nodal_field
-from heatsoak.core.runner import run_case
+from heatsoak.core.app.cli import main
+from heatsoak.core.app.runner import run_case
+from heatsoak.core.case.casefile import load_case
+from heatsoak.core.case.initial_field import read_nodal_field
 
 
 def test_a_run_restarts_from_the_last_step_of_a_previous_run(tmp_path):

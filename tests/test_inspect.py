@@ -7,10 +7,10 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from heatsoak.core.cli import main
-from heatsoak.core.generate import box_mesh
-from heatsoak.core.inspect import format_summary, shape_ratio, summarize
-from heatsoak.core.meshread import build_mesh, read_mesh
+from heatsoak.core.app.cli import main
+from heatsoak.core.mesh.generate import box_mesh
+from heatsoak.core.mesh.inspect import format_summary, shape_ratio, summarize
+from heatsoak.core.mesh.read import build_mesh, read_mesh
 
 MESHES = Path(__file__).resolve().parent.parent / "meshes"
 KEYS = {

@@ -13,10 +13,10 @@ import meshio
 import numpy as np
 import pytest
 import tomli_w
-from heatsoak.core.cli import main
+from heatsoak.core.app.cli import main
 from heatsoak.core.errors import MeshError
-from heatsoak.core.generate import box_mesh
-from heatsoak.core.meshread import read_mesh
+from heatsoak.core.mesh.generate import box_mesh
+from heatsoak.core.mesh.read import read_mesh
 
 RHO, C, K = 1000.0, 1000.0, 1.0
 

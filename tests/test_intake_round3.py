@@ -13,12 +13,12 @@ import meshio
 import numpy as np
 import pytest
 import tomli_w
-from heatsoak.core.cli import main
-from heatsoak.core.elements import tet_basis
-from heatsoak.core.generate import box_mesh
-from heatsoak.core.meshread import read_mesh
-from heatsoak.core.probes import ProbeSet, locate
-from heatsoak.core.topology import signed_volumes
+from heatsoak.core.app.cli import main
+from heatsoak.core.mesh.generate import box_mesh
+from heatsoak.core.mesh.read import read_mesh
+from heatsoak.core.mesh.shape import tet_basis
+from heatsoak.core.mesh.topology import signed_volumes
+from heatsoak.core.results.probes import ProbeSet, locate
 
 gmsh = pytest.importorskip("gmsh")
 

@@ -3,14 +3,14 @@
 import numpy as np
 import pytest
 import scipy.sparse as sp
-from heatsoak.core import linsolve
-from heatsoak.core.assembly import Assembler
 from heatsoak.core.errors import InputError
-from heatsoak.core.generate import box_mesh
-from heatsoak.core.linsolve import CGSolver, DirectSolver, choose_solver, estimate_costs, stiffness_ratio
-from heatsoak.core.problem import Boundary, Material, Problem, TimeSettings
-from heatsoak.core.schedule import Constant, Ramp
-from heatsoak.core.stepping import ThetaMethod
+from heatsoak.core.fem.assembly import Assembler
+from heatsoak.core.mesh.generate import box_mesh
+from heatsoak.core.problem.problem import Boundary, Material, Problem, TimeSettings
+from heatsoak.core.problem.schedule import Constant, Ramp
+from heatsoak.core.solve import linear as linsolve
+from heatsoak.core.solve.linear import CGSolver, DirectSolver, choose_solver, estimate_costs, stiffness_ratio
+from heatsoak.core.solve.stepping import ThetaMethod
 from scipy.special import erf
 
 pytest.importorskip("pyamg")
@@ -255,7 +255,7 @@ def test_a_long_run_of_equal_steps_factorises_once_despite_rounding_of_the_step_
 
 
 def test_the_warm_start_is_exact_for_a_rate_linear_in_time_and_scales_a_lone_increment():
-    from heatsoak.core.stepping.theta import warm_start
+    from heatsoak.core.solve.stepping.theta import warm_start
 
     rate = lambda t: np.array([2.0 + 3.0 * t, -1.0 * t])  # increment / step, linear in time
     # steps [0, 1] and [1, 1.5], then the step [1.5, 2.3]; the increment of a step is rate(mid) * dt
@@ -266,7 +266,7 @@ def test_the_warm_start_is_exact_for_a_rate_linear_in_time_and_scales_a_lone_inc
 
 
 def test_the_extrapolated_warm_start_saves_iterations_without_changing_the_answer(monkeypatch):
-    from heatsoak.core.stepping import theta as theta_module
+    from heatsoak.core.solve.stepping import theta as theta_module
 
     def run(problem, settings):
         stepper, counts = ThetaMethod(problem, settings), []

@@ -6,10 +6,10 @@ import meshio
 import numpy as np
 import pytest
 from heatsoak.core.errors import InputError, MeshError
-from heatsoak.core.generate import box_mesh
-from heatsoak.core.geometry import cell_volumes, face_areas
-from heatsoak.core.meshread import build_mesh, read_mesh
-from heatsoak.core.topology import signed_volumes
+from heatsoak.core.mesh.generate import box_mesh
+from heatsoak.core.mesh.geometry import cell_volumes, face_areas
+from heatsoak.core.mesh.read import build_mesh, read_mesh
+from heatsoak.core.mesh.topology import signed_volumes
 from meshes_fixtures import circumradii, sphere, two_boxes
 
 
@@ -334,7 +334,7 @@ def test_overlapping_element_sets_put_each_element_in_the_smallest(tmp_path):
 
 
 def test_packed_row_keys_agree_with_numpy_unique():
-    from heatsoak.core.surface import unique_rows
+    from heatsoak.core.mesh.surface import unique_rows
 
     rng = np.random.default_rng(2)
     for high in (50, 2**40):  # packed into one integer, and too large to pack
@@ -359,7 +359,7 @@ def test_nearly_flat_element_is_reported_not_refused():
 
 
 def test_a_part_of_an_unlikely_size_gets_a_note_that_doubts_the_unit(tmp_path):
-    from heatsoak.core.meshread import unit_doubt
+    from heatsoak.core.mesh.read import unit_doubt
 
     assert unit_doubt(0.12, "m") is None and unit_doubt(15.0, "m") is None
     note = unit_doubt(120.0, "m")  # a 120 mm part read in metres

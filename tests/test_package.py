@@ -3,7 +3,7 @@
 import subprocess
 import sys
 
-from heatsoak.core import cli
+from heatsoak.core.app import cli
 
 UI_PACKAGES = ("pyvista", "vtk", "vtkmodules", "trame", "trame_server", "matplotlib", "wslink")
 
@@ -37,3 +37,63 @@ def test_console_script_is_installed():
 
 def test_no_command_is_an_error_exit():
     assert cli.main([]) == 2
+
+
+def _core_imports():
+    """(importing file, line, imported core module) for every import of heatsoak.core, lazy ones too."""
+    import ast
+    from pathlib import Path
+
+    import heatsoak.core as core
+
+    root = Path(core.__file__).parent
+    for path in root.rglob("*.py"):
+        for node in ast.walk(ast.parse(path.read_text())):
+            if isinstance(node, ast.ImportFrom) and node.level:
+                yield path.relative_to(root), node.lineno, "(relative)"
+            elif isinstance(node, ast.ImportFrom) and (node.module or "").startswith("heatsoak."):
+                yield path.relative_to(root), node.lineno, node.module
+            elif isinstance(node, ast.Import):
+                for alias in node.names:
+                    if alias.name.startswith("heatsoak."):
+                        yield path.relative_to(root), node.lineno, alias.name
+
+
+def test_core_imports_go_down_the_layers_only():
+    from heatsoak.core import LAYERS
+
+    rank = {"errors": -1, **{name: i for i, name in enumerate(LAYERS)}}
+    wrong = []
+    for rel, line, module in _core_imports():
+        if module == "(relative)":
+            wrong.append(f"{rel}:{line} relative import (use heatsoak.core.<layer>)")
+            continue
+        parts = module.split(".")
+        if parts[1] != "core" or len(parts) < 3:
+            wrong.append(f"{rel}:{line} imports {module}")
+            continue
+        own = rel.parts[0] if len(rel.parts) > 1 else None
+        if own is None:  # core/__init__.py and core/errors.py import nothing of heatsoak's
+            wrong.append(f"{rel}:{line} imports {module}")
+        elif parts[2] not in rank:
+            wrong.append(f"{rel}:{line} imports {module}, which is in no layer")
+        elif rank[parts[2]] > rank[own]:
+            wrong.append(f"{rel}:{line}: {own} imports the higher layer {parts[2]} ({module})")
+    assert wrong == [], "imports against the layer order in core/README.md:\n" + "\n".join(wrong)
+
+
+def test_every_core_package_is_a_layer_and_the_top_level_stays_small():
+    from pathlib import Path
+
+    import heatsoak.core as core
+    import heatsoak.plugin as plugin
+    from heatsoak.core import LAYERS
+
+    root = Path(core.__file__).parent
+    packages = {p.name for p in root.iterdir() if (p / "__init__.py").exists()}
+    assert packages == set(LAYERS)
+    for pkg in (root, Path(plugin.__file__).parent):
+        modules = [p.name for p in pkg.glob("*.py")]
+        assert len(modules) <= 8, f"{pkg.name}/ holds {len(modules)} modules: {sorted(modules)}"
+        too_long = [(str(p), n) for p in pkg.rglob("*.py") if (n := len(p.read_text().splitlines())) >= 450]
+        assert too_long == []

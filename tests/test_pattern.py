@@ -3,8 +3,8 @@
 import numpy as np
 import pytest
 import scipy.sparse as sp
-from heatsoak.core.generate import box_mesh
-from heatsoak.core.pattern import build_pattern, element_entries
+from heatsoak.core.fem.pattern import build_pattern, element_entries
+from heatsoak.core.mesh.generate import box_mesh
 
 
 def scrambled_cells(order=1, seed=0):

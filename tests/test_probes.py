@@ -8,8 +8,8 @@ polynomial's value (common practice, no source).
 import numpy as np
 import pytest
 from heatsoak.core.errors import ProbeError
-from heatsoak.core.generate import box_mesh
-from heatsoak.core.probes import ProbeSet, distance_to_boundary, locate
+from heatsoak.core.mesh.generate import box_mesh
+from heatsoak.core.results.probes import ProbeSet, distance_to_boundary, locate
 
 
 def _linear(x):
@@ -49,7 +49,7 @@ def test_p2_interpolation_of_a_quadratic_field_is_exact(pts):
 def test_p2_probes_in_curved_cells_reproduce_a_linear_field_exactly():
     # Isoparametric cells reproduce linear fields exactly (common practice, no source); taking
     # the curved cell as straight-sided would miss by about the mid-node offset times the gradient.
-    from heatsoak.core.elements import tet_basis
+    from heatsoak.core.mesh.shape import tet_basis
 
     mesh = box_mesh((3, 3, 3), size=(1.0, 1.0, 1.0), order=2)
     rng = np.random.default_rng(4)

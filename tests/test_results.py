@@ -2,9 +2,9 @@
 
 import numpy as np
 import pytest
-from heatsoak.core.generate import box_mesh
-from heatsoak.core.probes import ProbeSet
-from heatsoak.core.results import Recorder, RegionStats, first_crossing
+from heatsoak.core.mesh.generate import box_mesh
+from heatsoak.core.results.probes import ProbeSet
+from heatsoak.core.results.record import Recorder, RegionStats, first_crossing
 
 
 def _halves(c):

@@ -15,9 +15,9 @@ import meshio
 import numpy as np
 import pytest
 from box_case import make_case
-from heatsoak.core import runner
-from heatsoak.core.case import case_from_data, load_case
-from heatsoak.core.cli import main
+from heatsoak.core.app import runner
+from heatsoak.core.app.cli import main
+from heatsoak.core.case.casefile import case_from_data, load_case
 
 MESHES = Path(__file__).resolve().parent.parent / "meshes"
 
@@ -129,8 +129,8 @@ def test_example_case_passes_check_and_runs_on_a_coarse_setting(path, tmp_path, 
 CRASH = """
 import os, sys
 sys.path.insert(0, sys.argv[3])
-from heatsoak.core import runner
-from heatsoak.core.case import load_case
+from heatsoak.core.app import runner
+from heatsoak.core.case.casefile import load_case
 
 def die(p):
     if p.step == 5:

@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 from heatsoak.core.errors import ScheduleError
-from heatsoak.core.schedule import Constant, Ramp, Table, parse_schedule, read_table_csv
+from heatsoak.core.problem.schedule import Constant, Ramp, Table, parse_schedule, read_table_csv
 
 
 def test_constant_is_flat_and_keeps_scalar_or_array_shape():

@@ -4,12 +4,12 @@ import numpy as np
 import pytest
 import scipy.linalg as sla
 from heatsoak.core.errors import InputError, StabilityError
-from heatsoak.core.generate import box_mesh
-from heatsoak.core.operators import left_value
-from heatsoak.core.problem import Boundary, Material, Problem, TimeSettings
-from heatsoak.core.schedule import Constant, Ramp, Table
-from heatsoak.core.stepping import ThetaMethod, lambda_max, step_times
-from heatsoak.core.stepping.base import MERGE
+from heatsoak.core.fem.operators import left_value
+from heatsoak.core.mesh.generate import box_mesh
+from heatsoak.core.problem.problem import Boundary, Material, Problem, TimeSettings
+from heatsoak.core.problem.schedule import Constant, Ramp, Table
+from heatsoak.core.solve.stepping import ThetaMethod, lambda_max, step_times
+from heatsoak.core.solve.stepping.base import MERGE
 
 ALPHA, K = 1e-5, 10.0
 MAT = Material(K / ALPHA, 1.0, K)

@@ -18,7 +18,7 @@ MESH = MESHES / "lblock.vtu"
 
 def start_ui(*extra, log):
     port = free_port()
-    cmd = [sys.executable, "-u", "-m", "heatsoak.core.cli", "ui", str(MESH), "--server", "--port", str(port), *extra]
+    cmd = [sys.executable, "-u", "-m", "heatsoak.core.app.cli", "ui", str(MESH), "--server", "--port", str(port), *extra]
     return port, subprocess.Popen(cmd, stdout=log, stderr=subprocess.STDOUT)
 
 

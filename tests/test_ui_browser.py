@@ -83,8 +83,8 @@ def page(server):
 
 def inside_point(case_dir: Path, case_name: str) -> list:
     """A point well inside the demo mesh, in the mesh's unit (the centroid of its largest element)."""
-    from heatsoak.core.case import load_case
-    from heatsoak.core.meshread import UNITS
+    from heatsoak.core.case.casefile import load_case
+    from heatsoak.core.mesh.read import UNITS
 
     case = load_case(case_dir / case_name)
     m = case.mesh
@@ -156,7 +156,7 @@ def test_ramp_run_animate_probe_and_export_match_the_cli(page, server, data_dir,
         z.extractall(tmp_path / "bundle")
 
     out = tmp_path / "cli-results"
-    done = subprocess.run([sys.executable, "-m", "heatsoak.core.cli", "run", str(tmp_path / "bundle" / "case.toml"),
+    done = subprocess.run([sys.executable, "-m", "heatsoak.core.app.cli", "run", str(tmp_path / "bundle" / "case.toml"),
                            "--out", str(out), "--quiet"], capture_output=True, text=True, timeout=120, check=False)
     assert done.returncode == 0, done.stderr
     ui, cli = read_probe_csv(tmp_path / "ui-probes.csv"), read_probe_csv(out / "probes.csv")

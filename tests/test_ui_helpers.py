@@ -5,11 +5,14 @@ from __future__ import annotations
 import copy
 
 import pytest
-from heatsoak.core.case import check_case_data
+from heatsoak.core.case.casefile import check_case_data
 from heatsoak.core.errors import InputError
-from heatsoak.core.generate import box_mesh
-from heatsoak.core.materials import LIBRARY, get_material
-from heatsoak.plugin import access, files, forms, rundiff
+from heatsoak.core.mesh.generate import box_mesh
+from heatsoak.core.problem.materials import LIBRARY, get_material
+from heatsoak.plugin import access
+from heatsoak.plugin.load import listing as files
+from heatsoak.plugin.runs import labels as rundiff
+from heatsoak.plugin.setup import forms
 
 RAMP_CASE = {
     "mesh": {"file": "box.msh", "unit": "m"},
@@ -179,7 +182,7 @@ def test_library_material_is_written_with_its_source():
 def test_animation_encodes_every_frame(fmt, magic, tmp_path):
     import imageio.v3 as iio
     import numpy as np
-    from heatsoak.plugin.h_export import encode_movie
+    from heatsoak.plugin.export.actions import encode_movie
 
     frames = [np.full((64, 96, 3), 25 * i, np.uint8) for i in range(6)]
     data = encode_movie(frames, fps=5, fmt=fmt)

@@ -114,7 +114,7 @@ def test_a_heat_source_on_a_region_warms_it_is_exported_and_runs_alike_in_the_cl
     download(page, "#hs-export-bundle", tmp_path / "bundle.zip")
     with zipfile.ZipFile(tmp_path / "bundle.zip") as z:
         z.extractall(tmp_path / "bundle")
-    done = subprocess.run([sys.executable, "-m", "heatsoak.core.cli", "run", str(tmp_path / "bundle" / "case.toml"),
+    done = subprocess.run([sys.executable, "-m", "heatsoak.core.app.cli", "run", str(tmp_path / "bundle" / "case.toml"),
                            "--out", str(tmp_path / "cli"), "--quiet"], capture_output=True, text=True, timeout=120,
                           check=False)
     assert done.returncode == 0, done.stderr

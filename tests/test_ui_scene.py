@@ -10,7 +10,7 @@ import pytest
 pytest.importorskip("pyvista")
 os.environ.setdefault("VTK_DEFAULT_OPENGL_WINDOW", "vtkEGLRenderWindow")
 
-from heatsoak.core.generate import box_mesh
+from heatsoak.core.mesh.generate import box_mesh
 from heatsoak.plugin.pvtrame import new_plotter
 from heatsoak.plugin.scene import Scene, boundary_polydata
 

@@ -9,11 +9,11 @@ rises as q A t / (rho c V) to round-off.
 
 import numpy as np
 import pytest
-from heatsoak.core.assembly import Assembler
-from heatsoak.core.generate import box_mesh
-from heatsoak.core.problem import Boundary, Material, Problem, TimeSettings
-from heatsoak.core.schedule import Constant, Ramp
-from heatsoak.core.stepping import ThetaMethod
+from heatsoak.core.fem.assembly import Assembler
+from heatsoak.core.mesh.generate import box_mesh
+from heatsoak.core.problem.problem import Boundary, Material, Problem, TimeSettings
+from heatsoak.core.problem.schedule import Constant, Ramp
+from heatsoak.core.solve.stepping import ThetaMethod
 
 SIZE = (0.4, 0.2, 0.1)  # m
 AREA, VOLUME = 0.2 * 0.1, 0.4 * 0.2 * 0.1  # xmin face [m2], body [m3]

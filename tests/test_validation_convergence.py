@@ -10,11 +10,11 @@ Crank-Nicolson.
 
 import numpy as np
 import pytest
-from heatsoak.core.generate import box_mesh
-from heatsoak.core.geometry import isoparametric
-from heatsoak.core.problem import Boundary, Material, Problem, TimeSettings
-from heatsoak.core.schedule import Constant
-from heatsoak.core.stepping import ThetaMethod
+from heatsoak.core.mesh.generate import box_mesh
+from heatsoak.core.mesh.geometry import isoparametric
+from heatsoak.core.problem.problem import Boundary, Material, Problem, TimeSettings
+from heatsoak.core.problem.schedule import Constant
+from heatsoak.core.solve.stepping import ThetaMethod
 
 END = 0.1
 

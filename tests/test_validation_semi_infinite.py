@@ -15,10 +15,10 @@ from exact_solutions import (
     semi_infinite_step,
     semi_infinite_table,
 )
-from heatsoak.core.generate import box_mesh
-from heatsoak.core.problem import Boundary, Material, Problem, TimeSettings
-from heatsoak.core.schedule import Constant, Ramp, Table
-from heatsoak.core.stepping import ThetaMethod
+from heatsoak.core.mesh.generate import box_mesh
+from heatsoak.core.problem.problem import Boundary, Material, Problem, TimeSettings
+from heatsoak.core.problem.schedule import Constant, Ramp, Table
+from heatsoak.core.solve.stepping import ThetaMethod
 from scipy.special import erfc
 
 ALPHA, K = 1e-5, 10.0

@@ -14,12 +14,12 @@ from exact_solutions import (
     wall_convection,
     wall_eigenvalues,
 )
-from heatsoak.core.generate import box_mesh
-from heatsoak.core.meshread import read_mesh
-from heatsoak.core.probes import ProbeSet
-from heatsoak.core.problem import Boundary, Material, Problem, TimeSettings
-from heatsoak.core.schedule import Constant
-from heatsoak.core.stepping import ThetaMethod
+from heatsoak.core.mesh.generate import box_mesh
+from heatsoak.core.mesh.read import read_mesh
+from heatsoak.core.problem.problem import Boundary, Material, Problem, TimeSettings
+from heatsoak.core.problem.schedule import Constant
+from heatsoak.core.results.probes import ProbeSet
+from heatsoak.core.solve.stepping import ThetaMethod
 
 ALPHA, K = 1e-5, 10.0
 STEEL_LIKE = Material(K / ALPHA, 1.0, K)

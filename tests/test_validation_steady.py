@@ -7,10 +7,10 @@ are element faces (patch test; common practice, no source).
 
 import numpy as np
 import pytest
-from heatsoak.core.generate import box_mesh
-from heatsoak.core.problem import Boundary, Material, Problem, TimeSettings
-from heatsoak.core.schedule import Constant
-from heatsoak.core.stepping import ThetaMethod
+from heatsoak.core.mesh.generate import box_mesh
+from heatsoak.core.problem.problem import Boundary, Material, Problem, TimeSettings
+from heatsoak.core.problem.schedule import Constant
+from heatsoak.core.solve.stepping import ThetaMethod
 from scipy.spatial.transform import Rotation
 
 SIZE = np.array([0.3, 0.2, 0.1])

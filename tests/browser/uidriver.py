@@ -66,7 +66,7 @@ class UiServer:
         self.log_path = log_dir / "ui-server.log"
         self._log = open(self.log_path, "w")  # noqa: SIM115 - open for the life of the server
         env = {**os.environ, "PYTHONUNBUFFERED": "1"}
-        cmd = [sys.executable, "-m", "heatsoak.core.cli", "ui", str(case), "--data-dir", str(data_dir),
+        cmd = [sys.executable, "-m", "heatsoak.core.app.cli", "ui", str(case), "--data-dir", str(data_dir),
                "--server", "--port", str(self.port), "--host", "127.0.0.1"]
         self.proc = subprocess.Popen(cmd, stdout=self._log, stderr=subprocess.STDOUT, env=env)
         self.url = f"http://127.0.0.1:{self.port}/"

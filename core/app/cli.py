@@ -1,0 +1,100 @@
+"""The ``heatsoak`` command: one entry point, one subcommand per job.
+
+Each subcommand's work lives in its own module; this file only parses the
+command line and turns errors into exit codes: 0 ok, 2 bad input, 1 failure.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+
+from heatsoak.core.errors import HeatsoakError, InputError
+
+#: subcommand -> (module, function, help). Modules are imported lazily so
+#: ``heatsoak inspect`` never loads the UI stack.
+COMMANDS = {
+    "inspect": ("heatsoak.core.mesh.inspect", "cmd_inspect", "show what heatsoak understood of a mesh file"),
+    "check": ("heatsoak.core.app.runner", "cmd_check", "validate a case file without running it"),
+    "run": ("heatsoak.core.app.runner", "cmd_run", "run a case file headless and write result files"),
+    "bench": ("heatsoak.core.app.bench", "cmd_bench", "measure assembly and solver speed on cube meshes"),
+    "ui": ("heatsoak.plugin.app", "cmd_ui", "start the browser UI"),
+}
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="heatsoak",
+        description="Transient heat diffusion on tetrahedral meshes. "
+        "Results are engineering estimates to be checked; defer to local codes and licensed practice.",
+    )
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    for name, (module, func, help_) in COMMANDS.items():
+        p = sub.add_parser(name, help=help_, description=help_)
+        p.set_defaults(_target=(module, func))
+        _ARGUMENTS[name](p)
+    return parser
+
+
+def _inspect_args(p):
+    p.add_argument("mesh", help="mesh file in any format meshio reads")
+    p.add_argument("--unit", default="m", choices=["m", "cm", "mm", "in"], help="length unit of the file (default m)")
+    p.add_argument("--feature-angle", type=float, default=30.0, help="degrees, to split untagged surfaces (default 30)")
+    p.add_argument("--json", action="store_true", help="print the facts as JSON")
+
+
+def _check_args(p):
+    p.add_argument("case", help="case file (TOML)")
+
+
+def _run_args(p):
+    p.add_argument("case", nargs="+", help="case file(s) (TOML); several run one after the other")
+    p.add_argument("--out", help="results folder (default: CASE-results next to each case file; "
+                   "with several cases, one subfolder per case)")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+
+
+def _bench_args(p):
+    p.add_argument("--sizes", default="small,medium,large", help="comma list of small, medium, large")
+    p.add_argument("--json", help="also write the numbers to this JSON file")
+    p.add_argument("--steps", type=int, default=1000, help="steps of the long runs (default 1000)")
+
+
+def _ui_args(p):
+    p.add_argument("input", nargs="?", help="mesh or case file to open (default: the demo case)")
+    p.add_argument("--data-dir", help="folder the file browser may open files from")
+    p.add_argument("--port", type=int, default=8080)
+    p.add_argument("--host", default="127.0.0.1", help="interface to bind (default 127.0.0.1)")
+    p.add_argument("--key-file", help="file holding the access key (needed when --host is not loopback)")
+    p.add_argument("--server", action="store_true", help="do not open a browser")
+
+
+_ARGUMENTS = {"inspect": _inspect_args, "check": _check_args, "run": _run_args, "bench": _bench_args, "ui": _ui_args}
+
+
+def main(argv=None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if args.command is None:
+        parser.print_help()
+        return 2
+    module, func = args._target
+    try:
+        return int(getattr(importlib.import_module(module), func)(args) or 0)
+    except InputError as exc:
+        print(f"heatsoak {args.command}: {exc}", file=sys.stderr)
+        return 2
+    except HeatsoakError as exc:
+        print(f"heatsoak {args.command}: {exc}", file=sys.stderr)
+        return 1
+    except BrokenPipeError:  # output piped into a pager or head that closed early
+        sys.stderr.close()
+        return 0
+    except KeyboardInterrupt:
+        print(f"heatsoak {args.command}: interrupted", file=sys.stderr)
+        return 1
+
+
+if __name__ == "__main__":
+    sys.exit(main())

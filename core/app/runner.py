@@ -1,0 +1,259 @@
+"""Running a case: the loop shared by the command line and the UI, and the ``check``/``run`` commands."""
+
+from __future__ import annotations
+
+import sys
+import time as _time
+from pathlib import Path
+
+import numpy as np
+from heatsoak.core.case.casefile import Case, check_case, load_case, stability_problem
+from heatsoak.core.errors import CaseError
+from heatsoak.core.results.probes import ProbeSet
+from heatsoak.core.results.record import Recorder, bound_warnings
+from heatsoak.core.results.writer import ResultFiles
+from heatsoak.core.solve.stepping import ThetaMethod
+
+#: Exit code of a run stopped with Ctrl-C (128 + SIGINT, common practice).
+EXIT_CANCELLED = 130
+
+
+def _probe_set(case: Case) -> ProbeSet:
+    points = np.array([p.point for p in case.probes]).reshape(-1, 3)
+    return ProbeSet(case.mesh, points, [p.name for p in case.probes], unit=case.unit)
+
+
+def _bound_warnings(case: Case, rec: Recorder) -> list:
+    if rec.minimum is None:
+        return []
+    return bound_warnings(case.problem, case.time.end, rec.minimum.value, rec.maximum.value)
+
+
+def _summary(case: Case, stepper, rec: Recorder, files: ResultFiles, status: str, clock: dict) -> dict:
+    times = rec.times
+    return {
+        "status": status,
+        "case": "" if case.path is None else case.path.name,
+        "steps": max(times.size - 1, 0),
+        "end_time": float(times[-1]) if times.size else 0.0,
+        "wall_time_s": clock["wall"],
+        "timing_s": {"setup": clock["setup"], "stepping": clock["stepping"], "recording_and_writing": clock["output"]},
+        "element_order": case.mesh.order,
+        "nodes": case.mesh.n_nodes,
+        "cells": case.mesh.n_cells,
+        "field_steps_written": len(files.field.times),
+        "temperature": {
+            "min": None if rec.minimum is None else rec.minimum.to_dict(),
+            "max": None if rec.maximum is None else rec.maximum.to_dict(),
+            "units": "value degC, where m, when s",
+        },
+        "probes": {p.name: {"threshold": p.threshold, "crossing_time": rec.crossings().get(p.name)}
+                   for p in case.probes},
+        "warnings": list(case.mesh.warnings) + getattr(rec.probes, "notes", []) + _bound_warnings(case, rec),
+        "energy": stepper.energy(),
+        "solver": stepper.report(),
+    }
+
+
+def run_case(case: Case, out_dir, progress=None, should_stop=None) -> dict:
+    """Run ``case``, writing result files into ``out_dir`` as the run goes.
+
+    Parameters
+    ----------
+    case : Case
+    out_dir : path
+        Results folder, created if needed (see :mod:`heatsoak.core.results.writer`).
+    progress : callable, optional
+        Called with a :class:`~heatsoak.core.solve.stepping.Progress` after every step.
+    should_stop : callable, optional
+        Polled after every step; when it returns True the run stops cleanly.
+
+    Returns
+    -------
+    dict
+        The summary also written to ``summary.json``; ``status`` is
+        "complete" or "cancelled" (Ctrl-C or ``should_stop``). On any other
+        error the files are closed with status "failed" and the error re-raised.
+    """
+    t0 = _time.perf_counter()
+    probes = _probe_set(case)
+    rec = Recorder(case.mesh, probes, [p.threshold for p in case.probes])
+    stepper = ThetaMethod(case.problem, case.time, progress=progress)
+    files = ResultFiles(out_dir, case.mesh, probes.names)
+    clock = {"setup": _time.perf_counter() - t0, "output": 0.0}
+    every, pending, status, error = case.output_every, None, "failed", ""
+    tick = _time.perf_counter()
+    try:
+        for k, (t, T) in enumerate(stepper.steps()):
+            t1 = _time.perf_counter()
+            files.step(t, *rec.record(t, T))
+            if k % every == 0:
+                files.field.write(t, T)
+                pending = None
+            else:
+                pending = (t, T)
+            clock["output"] += _time.perf_counter() - t1
+            if should_stop is not None and should_stop():
+                stepper.cancel()
+        status = stepper.status
+    except KeyboardInterrupt:
+        status = "cancelled"
+    except Exception as exc:
+        error = f"{type(exc).__name__}: {exc}"
+        raise
+    finally:
+        if pending is not None:
+            files.field.write(*pending)
+        clock["wall"] = _time.perf_counter() - t0
+        clock["stepping"] = _time.perf_counter() - tick - clock["output"]
+        summary = _summary(case, stepper, rec, files, status, clock)
+        if status == "failed":
+            summary["error"] = error
+        summary = files.finish(summary)
+    return summary
+
+
+class TerminalProgress:
+    """A one-line progress bar redrawn with a carriage return, at most every ``interval`` seconds."""
+
+    def __init__(self, stream=None, width: int = 30, interval: float = 0.1):
+        self.stream = sys.stderr if stream is None else stream
+        self.width, self.interval, self._last = width, interval, -1.0
+
+    def __call__(self, p) -> None:
+        now = _time.perf_counter()
+        if p.fraction < 1.0 and now - self._last < self.interval:
+            return
+        self._last = now
+        filled = round(self.width * min(max(p.fraction, 0.0), 1.0))
+        bar = "#" * filled + "-" * (self.width - filled)
+        eta = _time.strftime("%H:%M:%S", _time.gmtime(max(p.eta_s, 0.0)))
+        self.stream.write(f"\rstep {p.step:>6}  t {p.t:>10.4g} / {p.end:g} s  [{bar}] {100 * p.fraction:5.1f}%"
+                          f"  left {eta} ")
+        self.stream.flush()
+
+    def done(self) -> None:
+        if self._last >= 0:
+            self.stream.write("\n")
+            self.stream.flush()
+
+
+def _fmt_point(point, unit: str, scale: float) -> str:
+    return "(" + ", ".join(f"{x / scale:g}" for x in point) + f") {unit}"
+
+
+def _describe_boundary(b) -> str:
+    if b.kind == "temperature":
+        return f"temperature [degC] {b.value.describe()}"
+    if b.kind == "heat_flux":
+        return f"heat flux into the body [W/m2] {b.value.describe()}"
+    if b.kind == "convection":
+        return f"convection, h {b.h:g} W/(m2 K), ambient [degC] {b.ambient.describe()}"
+    return "insulated"
+
+
+def describe_case(case: Case) -> list:
+    """Short plain-text lines saying what a case will run."""
+    from heatsoak.core.mesh.read import UNITS
+
+    m, tm = case.mesh, case.time
+    kind = "tetra" if m.order == 1 else "tetra10"
+    lines = [(f"mesh      {case.mesh_file.name} ({case.unit}): {m.n_nodes} nodes, {m.n_cells} {kind} cells, "
+              f"{len(m.region_names)} regions, {len(m.group_names)} surface groups")]
+    extent = m.points.max(axis=0) - m.points.min(axis=0)
+    scale = UNITS[case.unit]
+    lines.append(f"size      {' x '.join(f'{e / scale:.4g}' for e in extent)} {case.unit}")
+    for name, mat in case.problem.materials.items():
+        k = mat.conductivity if np.ndim(mat.conductivity) == 0 else "tensor"
+        src = "" if mat.source is None else f", source [W/m3] {mat.source.describe()}"
+        lines.append(f"material  {name}: density {mat.density:g} kg/m3, specific heat {mat.specific_heat:g} J/(kg K), "
+                     f"conductivity {k if isinstance(k, str) else format(k, 'g')} W/(m K){src}")
+    for name, b in case.problem.boundaries.items():
+        lines.append(f"boundary  {name}: {_describe_boundary(b)}")
+    rest = [g for g in m.group_names if g not in case.problem.boundaries]
+    if rest:
+        lines.append(f"boundary  insulated (not listed): {', '.join(rest)}")
+    n = int(np.ceil(tm.end / tm.step - 1e-9))
+    lines.append(f"time      0 to {tm.end:g} s, step {tm.step:g} s (about {n} steps), theta {tm.theta:g}, "
+                 f"{tm.mass} mass, solver {tm.solver}")
+    for p in case.probes:
+        thr = "" if p.threshold is None else f", threshold {p.threshold:g} degC"
+        lines.append(f"probe     {p.name} at {_fmt_point(p.point, case.unit, UNITS[case.unit])}{thr}")
+    lines.append(f"output    temperature field every {case.output_every} step(s) and the last")
+    return lines
+
+
+def cmd_check(args) -> int:
+    """``heatsoak check CASE``: print every problem (exit 2) or "ok" and what will run (exit 0)."""
+    try:
+        case = load_case(args.case)
+    except CaseError as exc:
+        for problem in exc.problems:
+            print(problem, file=sys.stderr)
+        print(f"{len(exc.problems)} problem(s) in {args.case}", file=sys.stderr)
+        return 2
+    unstable = stability_problem(case.problem, case.time)
+    if unstable:
+        print(f"{case.path.name}: time.step: {unstable}\n1 problem(s) in {args.case}", file=sys.stderr)
+        return 2
+    print(f"ok: {args.case}")
+    print("\n".join(describe_case(case)))
+    for w in [*case.mesh.warnings, *_probe_set(case).notes]:
+        print(f"note      {w}")
+    return 0
+
+
+def _report(summary: dict, out_dir: Path) -> list:
+    t = summary["temperature"]
+    lines = [(f"{summary['status']}: {summary['steps']} steps to t = {summary['end_time']:g} s "
+              f"in {summary['wall_time_s']:.1f} s; results in {out_dir}")]
+    solver = summary.get("solver") or {}
+    if solver.get("solver"):
+        lines.append(f"solver {solver['solver']}: {solver['reason']}")
+    if t["min"] is not None:
+        lines.append(f"temperature from {t['min']['value']:.4g} to {t['max']['value']:.4g} degC "
+                     f"(max at t = {t['max']['when']:g} s)")
+    for name, p in summary["probes"].items():
+        if p["threshold"] is not None:
+            when = "not reached" if p["crossing_time"] is None else f"reached at t = {p['crossing_time']:.4g} s"
+            lines.append(f"probe {name}: {p['threshold']:g} degC {when}")
+    lines.append(f"energy balance: relative imbalance {summary['energy']['relative_imbalance']:.2e}")
+    lines.extend(f"warning: {w}" for w in summary.get("warnings", []))
+    lines.append(summary["note"])
+    return lines
+
+
+def _run_one(path, out, quiet: bool) -> dict:
+    case = load_case(path)
+    bar = None if quiet else TerminalProgress()
+    try:
+        summary = run_case(case, out, progress=bar)
+    finally:
+        if bar is not None:
+            bar.done()
+    print("\n".join(_report(summary, out)))
+    return summary
+
+
+def cmd_run(args) -> int:
+    """``heatsoak run CASE [CASE ...] [--out DIR] [--quiet]``: run headless.
+
+    One case writes into DIR (default ``<case>-results`` beside it); several
+    cases (a batch) each write into ``DIR/<case stem>`` (default beside each
+    case). Every case is checked before the first one runs. Exit 0 when all
+    complete, 2 on bad input, 130 when cancelled.
+    """
+    paths = [Path(c) for c in ([args.case] if isinstance(args.case, str) else args.case)]
+    problems = [i.message for p in paths for i in check_case(p)] if len(paths) > 1 else []
+    if problems:
+        raise CaseError(problems)
+    for path in paths:
+        if args.out is None:
+            out = path.parent / f"{path.stem}-results"
+        else:
+            out = Path(args.out) / path.stem if len(paths) > 1 else Path(args.out)
+        if len(paths) > 1:
+            print(f"== {path}", flush=True)
+        if _run_one(path, out, args.quiet)["status"] != "complete":
+            return EXIT_CANCELLED
+    return 0

@@ -1,0 +1,140 @@
+"""Bookkeeping shared by time integrators: time grid, progress, cancellation.
+
+A subclass implements :meth:`Integrator._advance`, one step from ``t`` to
+``t + dt``; the base class owns the time, the step count, the status, the
+landing on breakpoints and output times, and the progress reports.
+"""
+
+from __future__ import annotations
+
+import time as _time
+from dataclasses import dataclass
+
+import numpy as np
+from heatsoak.core.errors import InputError
+
+#: Relative tolerance for merging a grid time with a breakpoint [fraction of dt].
+MERGE = 1e-6
+#: Most steps a run may take (1e7 steps of even a tiny mesh take hours).
+MAX_STEPS = 10_000_000
+
+
+@dataclass
+class Progress:
+    """Where a run is, for progress bars.
+
+    Attributes
+    ----------
+    step : int
+        Steps done.
+    t, end : float
+        Simulated time reached and end time [s].
+    fraction : float
+        t / end.
+    elapsed_s, eta_s : float
+        Wall time spent and estimated wall time left [s].
+    """
+
+    step: int
+    t: float
+    end: float
+    fraction: float
+    elapsed_s: float
+    eta_s: float
+
+
+def step_times(end: float, dt: float, marks=()) -> np.ndarray:
+    """End times of every step: the grid k*dt plus the marks in (0, end], merged.
+
+    Grid points closer than ``MERGE * dt`` to a mark are replaced by the mark,
+    so no sliver steps appear.
+
+    Parameters
+    ----------
+    end, dt : float [s]
+    marks : iterable of float [s]
+        Times the steps must land on exactly (schedule breakpoints, outputs).
+
+    Returns
+    -------
+    (n_steps,) increasing array ending with ``end``.
+    """
+    count = end / dt if dt > 0 else np.inf
+    if not count <= MAX_STEPS:
+        raise InputError(f"time end {end:g} s with step {dt:g} s gives {count:.3g} steps; "
+                         f"at most {MAX_STEPS:d} are allowed, use a larger step")
+    n = int(np.floor(count * (1 + 1e-12)))
+    grid = dt * np.arange(1, n + 1)
+    marks = np.unique(np.asarray([m for m in marks if 0.0 < m < end], dtype=float))
+    pts = np.concatenate([grid[grid < end], marks, [end]])
+    pts.sort()
+    keep = np.concatenate([[True], np.diff(pts) > MERGE * dt])
+    pts = pts[keep]
+    # prefer the exact mark where a grid point merged with it
+    if marks.size:
+        right = np.clip(np.searchsorted(pts, marks), 1, len(pts) - 1)
+        left = right - 1
+        nearest = np.where(np.abs(pts[left] - marks) <= np.abs(pts[right] - marks), left, right)
+        pts[nearest] = marks
+    pts[-1] = end
+    return pts
+
+
+class Integrator:
+    """Base class of time integrators of M dT/dt + K T = F(t).
+
+    Parameters
+    ----------
+    end : float
+        End time [s].
+    progress : callable, optional
+        Called with a :class:`Progress` after every step.
+    """
+
+    def __init__(self, end: float, progress=None):
+        self.end = float(end)
+        self.progress = progress
+        self.t = 0.0
+        self.step_count = 0
+        self.status = "ready"
+        self._cancel = False
+
+    def cancel(self):
+        """Ask the run to stop after the current step; the generator then ends."""
+        self._cancel = True
+
+    def initial_state(self) -> np.ndarray:
+        raise NotImplementedError
+
+    def times(self) -> np.ndarray:
+        """End times of the steps (see :func:`step_times`)."""
+        raise NotImplementedError
+
+    def _advance(self, t: float, t_new: float, T: np.ndarray) -> np.ndarray:
+        """Return the state at ``t_new`` from the state ``T`` at ``t``."""
+        raise NotImplementedError
+
+    def steps(self):
+        """Generator of (t, T): first (0, T0), then one pair per step.
+
+        T is a new (n_nodes,) array every time [degC].
+        """
+        T = self.initial_state()
+        self.status = "running"
+        start = _time.perf_counter()
+        yield self.t, T.copy()
+        grid = self.times()
+        for t_new in grid:
+            if self._cancel:
+                self.status = "cancelled"
+                return
+            T = self._advance(self.t, float(t_new), T)
+            self.t = float(t_new)
+            self.step_count += 1
+            if self.progress is not None:
+                el = _time.perf_counter() - start
+                frac = self.t / self.end
+                eta = el * (len(grid) - self.step_count) / self.step_count
+                self.progress(Progress(self.step_count, self.t, self.end, frac, el, eta))
+            yield self.t, T.copy()
+        self.status = "complete"

@@ -1,0 +1,319 @@
+"""The theta-method with time-dependent prescribed temperatures.
+
+For nodes split into free (f) and prescribed (p) ones, a step from t_n to
+t_{n+1} = t_n + dt solves
+
+    (M_ff/dt + theta K_ff) T_f^{n+1} =
+        (M_ff/dt - (1-theta) K_ff) T_f^n
+      - M_fp (T_p^{n+1} - T_p^n)/dt - K_fp (theta T_p^{n+1} + (1-theta) T_p^n)
+      + theta F_f^{n+1} + (1-theta) F_f^n,
+
+the theta-method applied to the full system M dT/dt + K T = F with the
+prescribed values and their rate of change entering through the coupling
+blocks of M and K. It is exact in the sense of the theta-method when T_p is
+linear in time over the step (a ramp), since steps land on ramp corners.
+No penalty, no large numbers.
+
+Stability (common practice, no source; see e.g. Zienkiewicz & Taylor,
+The Finite Element Method, vol. 1, ch. on time stepping, from memory):
+theta >= 1/2 is unconditionally stable; theta < 1/2 needs
+dt <= 2 / ((1 - 2 theta) lambda_max) with lambda_max the largest eigenvalue
+of K v = lambda M v on the free nodes.
+"""
+
+from __future__ import annotations
+
+from itertools import pairwise
+
+import numpy as np
+import scipy.sparse as sp
+import scipy.sparse.linalg as spla
+from heatsoak.core.errors import InputError, StabilityError
+from heatsoak.core.fem.assembly import Assembler
+from heatsoak.core.fem.operators import build_operators, left_value
+from heatsoak.core.problem.problem import Problem, TimeSettings
+from heatsoak.core.solve.linear import choose_solver, make_solver, stiffness_ratio
+from heatsoak.core.solve.stepping.base import Integrator, step_times
+
+#: Named values of theta.
+THETA_PRESETS = {"forward-euler": 0.0, "crank-nicolson": 0.5, "galerkin": 2.0 / 3.0, "backward-euler": 1.0}
+
+#: Largest number of step sizes whose factorisations are kept.
+CACHE_SIZE = 8
+
+
+def lambda_max(K: sp.spmatrix, M) -> float:
+    """Largest eigenvalue of K v = lambda M v [1/s] (M a sparse matrix or a diagonal array)."""
+    n = K.shape[0]
+    if n == 0:
+        return 0.0
+    if not sp.issparse(M):
+        s = 1.0 / np.sqrt(M)
+        A = sp.diags(s) @ K @ sp.diags(s)
+        if n < 50:
+            return float(np.linalg.eigvalsh(A.toarray())[-1])
+        return float(spla.eigsh(A, k=1, which="LA", tol=1e-6, return_eigenvectors=False)[0])
+    if n < 50:
+        import scipy.linalg as sla
+
+        return float(sla.eigh(K.toarray(), M.toarray(), eigvals_only=True)[-1])
+    Minv = spla.factorized(sp.csc_matrix(M))
+    op = spla.LinearOperator(K.shape, matvec=lambda x: Minv(K @ x), dtype=float)
+    # M^-1 K is self-adjoint in the M inner product; a plain Arnoldi on it converges to the top eigenvalue.
+    return float(np.max(spla.eigs(op, k=1, which="LR", tol=1e-6, return_eigenvectors=False).real))
+
+
+def _dot(a: np.ndarray, b: np.ndarray) -> float:
+    """a . b without BLAS: a threaded BLAS dot stalls for milliseconds when the other core is busy."""
+    return float(np.einsum("i,i->", a, b))
+
+
+def _matvec(A: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """Dense (n, k) @ (k,) without BLAS, for the same reason as :func:`_dot`."""
+    return np.einsum("ij,j->i", A, x)
+
+
+def warm_start(rates: list, t: float, dt: float) -> np.ndarray | None:
+    """Initial guess for the increment of the step from t to t + dt [K], shape (free nodes,).
+
+    ``rates`` holds up to two (mid-step time [s], increment / step [K/s]) pairs
+    of the steps just taken. With two, the rate is extrapolated linearly to
+    this step's middle (an error of order dt^2 where the field evolves
+    smoothly, against order dt for the last increment alone); with one, the
+    last increment is scaled to this step's length; with none there is no
+    guess. Only the iteration count of a Krylov solver depends on it.
+    """
+    if not rates:
+        return None
+    m1, r1 = rates[-1]
+    if len(rates) == 1:
+        return r1 * dt
+    m0, r0 = rates[-2]
+    w = (t + 0.5 * dt - m1) / (m1 - m0)
+    return ((1.0 + w) * r1 - w * r0) * dt
+
+
+class ThetaMethod(Integrator):
+    """Theta-method time stepper of a :class:`Problem`.
+
+    Parameters
+    ----------
+    problem : Problem
+    time : TimeSettings
+    progress : callable, optional
+        Called with a :class:`~heatsoak.core.solve.stepping.base.Progress` after every step.
+    assembler : Assembler, optional
+        To reuse a mesh's cached pattern across runs.
+
+    Attributes
+    ----------
+    factorizations : int
+        Number of system matrices factorised (or preconditioners built).
+    """
+
+    def __init__(self, problem: Problem, time: TimeSettings, progress=None, assembler: Assembler | None = None):
+        super().__init__(time.end, progress)
+        theta = float(time.theta)
+        if not 0.0 <= theta <= 1.0:
+            raise InputError(f"theta must be in [0, 1], got {theta}")
+        if not (time.step > 0 and time.end > 0):
+            raise InputError(f"time step and end must be positive, got step={time.step}, end={time.end}")
+        self.problem, self.settings, self.theta = problem, time, theta
+        self.ops = build_operators(problem, time.mass, assembler)
+        f, p = self.ops.free, self.ops.fixed
+        K, M = self.ops.stiffness, self.ops.mass
+        self._Kff, self._Kfp = K[f][:, f].tocsr(), K[f][:, p].tocsr()
+        if self.ops.lumped:
+            self._Mff, self._Mfp = M[f], None
+        else:
+            self._Mff, self._Mfp = M[f][:, f].tocsr(), M[f][:, p].tocsr()
+        self.solver_name, self.solver_reason = self._choose_solver()
+        self._precompute_step_terms()
+        self._solvers = {}
+        self.factorizations = 0
+        self.dt_critical = None
+        if theta < 0.5:
+            self._check_stability()
+        start = time.start_steps
+        if start is None:
+            start = 4 if 0.5 <= theta < 1.0 else 0
+        self.start_steps = int(start)
+        self._energy = dict(stored_J=0.0, boundary_in_J=0.0, source_in_J=0.0, dirichlet_in_J=0.0)
+        self._rates = []  # (mid-step time [s], free-node increment / step [K/s]) of the last two steps
+        self._jump_times = set(self.ops.jumps().tolist())
+
+    # -- setup -------------------------------------------------------------
+    def _choose_solver(self):
+        """choose_solver with this problem's size, stiffness ratio (largest step) and step count."""
+        s = self.settings
+        if len(self.ops.free) == 0:
+            return choose_solver(0, s.solver)
+        M_diag = self._Mff if self.ops.lumped else self._Mff.diagonal()
+        ratio = stiffness_ratio(self._Kff.diagonal(), M_diag, s.step, self.theta)
+        steps = int(np.ceil(self.end / s.step))
+        return choose_solver(len(self.ops.free), s.solver, nnz=self._Kff.nnz, ratio=ratio, steps=steps)
+
+    def _precompute_step_terms(self):
+        """Fixed parts of a step's right-hand side and energy balance, so a step costs one
+        mat-vec besides the solve: loads restricted to free nodes, and column sums that
+        turn the balance's sums of mat-vecs into dot products."""
+        ops, f, p = self.ops, self.ops.free, self.ops.fixed
+        n = ops.stiffness.shape[0]
+        vecs = [vec for _, vec, _ in ops.loads]
+        self._V_f = np.column_stack([v[f] for v in vecs]) if vecs else np.zeros((len(f), 0))
+        self._load_sum = np.array([v.sum() for v in vecs])
+        self._load_fixed_sum = np.array([v[p].sum() for v in vecs])
+        self._load_kind = np.array([k for _, _, k in ops.loads], dtype=object)
+        ones_p = np.zeros(n)
+        ones_p[p] = 1.0
+        self._m_all = ops.mass_apply(np.ones(n))  # 1^T M (M symmetric)
+        self._m_fixed = ops.mass_apply(ones_p)  # 1_p^T M
+        self._k_fixed = ops.stiffness.T @ ones_p  # 1_p^T (K + H)
+        self._h_all = ops.convection.T @ np.ones(n)  # 1^T H
+
+    def _load_coefficients(self, t: float, t_new: float, theta: float) -> np.ndarray:
+        """theta-weighted schedule values of the loads over a step, (n_loads,)."""
+        s0 = np.array([float(sched(t)) for sched, _, _ in self.ops.loads])
+        s1 = np.array([left_value(sched, t, t_new) for sched, _, _ in self.ops.loads])
+        return theta * s1 + (1.0 - theta) * s0
+
+    def _check_stability(self):
+        lam = lambda_max(self._Kff, self._Mff)
+        self.dt_critical = np.inf if lam <= 0 else 2.0 / ((1.0 - 2.0 * self.theta) * lam)
+        if self.settings.step > self.dt_critical * (1 + 1e-9):
+            raise StabilityError(
+                f"time step {self.settings.step:g} s is above the stability limit {self.dt_critical:.4g} s of "
+                f"theta = {self.theta:g} on this mesh (largest eigenvalue {lam:.4g} 1/s); use step <= "
+                f"{self.dt_critical:.4g} s, or theta >= 0.5, which has no step limit"
+            )
+
+    def initial_state(self) -> np.ndarray:
+        T = self.ops.initial.copy()
+        T[self.ops.fixed] = self.ops.fixed_values(0.0)
+        self._T0 = T.copy()
+        self._rates = []
+        return T
+
+    def times(self) -> np.ndarray:
+        dt = self.settings.step
+        marks = list(self.ops.breakpoints()) + list(self.settings.output_times)
+        grid = step_times(self.end, dt, marks)
+        # Rannacher start: after t = 0 and after every jump of a schedule, the first steps are
+        # replaced by backward-Euler half steps (their end times are kept in self._damped).
+        damped = []
+        if self.start_steps > 0:
+            n_full = (self.start_steps + 1) // 2
+            for r in [0.0, *(j for j in self.ops.jumps() if j < self.end)]:
+                first = list(grid[grid > r][:n_full])
+                lead = [r] + first
+                halves = [0.5 * (a + b) for a, b in pairwise(lead)]
+                damped += sorted(halves + first)[: self.start_steps]
+            grid = np.unique(np.concatenate([damped, grid]))
+        self._damped = set(damped)
+        return grid
+
+    def _solver(self, dt: float, theta: float):
+        # steps of one size differ in their last bits (t_new - t): match cached sizes to 1e-9
+        key = next((k for k in self._solvers if k[1] == theta and abs(k[0] - dt) <= 1e-9 * dt), (dt, theta))
+        s = self._solvers.get(key)
+        if s is None:
+            if self.ops.lumped:
+                A = sp.diags(self._Mff / dt) + theta * self._Kff if theta > 0 else sp.diags(self._Mff / dt)
+            else:
+                A = self._Mff / dt + theta * self._Kff
+            s = make_solver(sp.csr_matrix(A), self.solver_name)
+            self.factorizations += 1
+            if len(self._solvers) >= CACHE_SIZE:
+                self._solvers.pop(next(iter(self._solvers)))
+            self._solvers[key] = s
+        return s
+
+    # -- one step ------------------------------------------------------------
+    def _advance(self, t: float, t_new: float, T: np.ndarray) -> np.ndarray:
+        ops, f, p = self.ops, self.ops.free, self.ops.fixed
+        dt = t_new - t
+        theta = 1.0 if t_new in self._damped else self.theta
+        # values inside the step: at t_new the limit from the left, so a jump at t_new acts after it
+        Tp0, Tp1 = T[p], ops.fixed_values(t_new, start=t)
+        coef = self._load_coefficients(t, t_new, theta)
+        Tf = T[f]
+        # solve for the increment so iterative solvers stop relative to the change per step:
+        # b = rhs - A Tf = F_theta - K_ff Tf - (coupling to prescribed nodes); M_ff Tf / dt cancels
+        b = _matvec(self._V_f, coef) - self._Kff @ Tf
+        if p.size:
+            Tp_th = theta * Tp1 + (1.0 - theta) * Tp0
+            b -= self._Kfp @ Tp_th
+            if self._Mfp is not None:
+                b -= self._Mfp @ ((Tp1 - Tp0) / dt)
+        solver = self._solver(dt, theta)
+        if not solver.iterative:
+            dTf = solver.solve(b)
+        else:
+            if t in self._jump_times:  # rates before a jump say nothing of its slope after it
+                self._rates = self._rates[-1:]
+            dTf = solver.solve(b, x0=warm_start(self._rates, t, dt))
+            self._rates = [*self._rates[-1:], (t + 0.5 * dt, dTf / dt)]
+        T_new = T.copy()
+        T_new[f] = Tf + dTf
+        T_new[p] = Tp1
+        self._account(T, T_new, dt, theta, coef)
+        jump = ops.fixed_values(t_new) - Tp1
+        if np.any(jump != 0.0):
+            # a prescribed temperature that jumps at t_new does so instantly: the heat it takes
+            # is stored at once and counted as entering through those nodes
+            T_new[p] += jump
+            dE = ops.mass_apply(np.bincount(p, weights=jump, minlength=T.shape[0])).sum()
+            self._energy["stored_J"] += dE
+            self._energy["dirichlet_in_J"] += dE
+        return T_new
+
+    def _account(self, T0, T1, dt, theta, coef):
+        """Add this step's heat to the energy balance (all nodes, theta-weighted).
+
+        With r = M (T1 - T0)/dt + (K + H) T_theta - F_theta the nodal heat
+        residual, stored heat is sum M (T1 - T0), boundary heat sum F_b - sum H T_theta,
+        source heat sum F_s and the heat through prescribed nodes sum of r over them;
+        each sum of a mat-vec is a dot product with precomputed column sums.
+        """
+        Tth = theta * T1 + (1 - theta) * T0
+        d = T1 - T0
+        kind = self._load_kind
+        Fb = float(coef[kind == "boundary"] @ self._load_sum[kind == "boundary"])
+        Fs = float(coef[kind == "source"] @ self._load_sum[kind == "source"])
+        r_fixed = _dot(self._m_fixed, d) / dt + _dot(self._k_fixed, Tth) - coef @ self._load_fixed_sum
+        self._energy["stored_J"] += _dot(self._m_all, d)
+        self._energy["boundary_in_J"] += dt * (Fb - _dot(self._h_all, Tth))
+        self._energy["source_in_J"] += dt * Fs
+        self._energy["dirichlet_in_J"] += dt * float(r_fixed)
+
+    # -- reports ---------------------------------------------------------------
+    def energy(self) -> dict:
+        """Heat stored versus heat that entered, since t = 0 [J].
+
+        ``boundary_in_J`` is heat flux plus convection, ``dirichlet_in_J`` the
+        heat that flowed in through prescribed-temperature nodes;
+        ``relative_imbalance`` is the imbalance over the largest of the heat
+        stored, the heat that entered and the heat capacity of the body times 1 K.
+        """
+        e = dict(self._energy)
+        inflow = e["boundary_in_J"] + e["source_in_J"] + e["dirichlet_in_J"]
+        e["imbalance_J"] = e["stored_J"] - inflow
+        # relative to the larger of the heats moved and the heat that warms the whole body by 1 K,
+        # so that a run in which nearly nothing happens does not divide round-off by round-off
+        scale = max(abs(e["stored_J"]), abs(inflow), float(self._m_all.sum()) * 1.0, 1e-300)
+        e["relative_imbalance"] = abs(e["imbalance_J"]) / scale
+        return e
+
+    def report(self) -> dict:
+        """What was run: solver, why, factorisations, steps, stability limit."""
+        return dict(
+            solver=self.solver_name,
+            reason=self.solver_reason,
+            factorizations=self.factorizations,
+            steps=self.step_count,
+            theta=self.theta,
+            mass=self.settings.mass,
+            start_steps=self.start_steps,
+            dt_critical=self.dt_critical,
+            warnings=list(self.ops.warnings),
+        )

@@ -1,0 +1,1 @@
+"""Exporting: the case file, result files, probe CSV, pictures and animations."""

@@ -1,0 +1,204 @@
+"""Handlers of the mesh step: browse the data folder, upload, read a mesh or a case."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import tomllib
+from heatsoak.core.errors import InputError
+from heatsoak.core.mesh.inspect import summarize
+from heatsoak.core.mesh.read import UNITS, read_mesh
+from heatsoak.core.problem.schedule import read_table_csv
+from heatsoak.plugin.load import guard, listing
+from heatsoak.plugin.results import actions as results_actions
+from heatsoak.plugin.setup import actions as setup_actions
+from heatsoak.plugin.setup import materials as material_actions
+from heatsoak.plugin.setup.forms import bc_form_from_case
+
+
+def register(panel) -> None:
+    """Defaults and handlers of the mesh step."""
+    state, ctrl = panel.state, panel.ctrl
+    state.update({
+        "hs_dir": "", "hs_files": [], "hs_mesh_name": "", "hs_unit": "m", "hs_units": list(UNITS),
+        "hs_feature_angle": 30.0, "hs_unit_from": "", "hs_facts": None, "hs_mesh_error": "", "hs_upload": None,
+        "hs_upload_error": "", "hs_max_upload_mb": listing.MAX_UPLOAD_BYTES // 1_000_000,
+    })
+
+    @ctrl.set("hs_refresh_files")
+    def refresh_files():
+        """List the current folder of the data folder."""
+        try:
+            state.hs_files = listing.list_files(panel.data_dir, state.hs_dir)
+        except (InputError, OSError) as exc:
+            state.hs_dir, state.hs_mesh_error = "", str(exc)
+            state.hs_files = listing.list_files(panel.data_dir, "")
+
+    @ctrl.set("hs_open")
+    def open_entry(path, kind):
+        """Open a row of the file list: enter a folder, read a mesh or a case."""
+        if kind == "folder":
+            state.hs_dir = path
+            refresh_files()
+            return
+        try:
+            target = listing.inside(panel.data_dir, path)
+        except InputError as exc:
+            state.hs_mesh_error = str(exc)
+            return
+        guard.request_open(panel, open_case if kind == "case" else open_bare_mesh, target)
+
+    @ctrl.set("hs_up_dir")
+    def up_dir():
+        state.hs_dir = listing.parent_of(state.hs_dir)
+        refresh_files()
+
+    register_choices(panel)
+    refresh_files()
+
+
+def register_choices(panel) -> None:
+    """Unit, feature angle and upload."""
+    state, ctrl = panel.state, panel.ctrl
+
+    @ctrl.set("hs_set_unit")
+    def set_unit(unit):
+        """The user says which length unit the file is in: read it again."""
+        previous = state.hs_unit, state.hs_unit_from
+        state.hs_unit, state.hs_unit_from = unit, "as chosen"
+        if panel.mesh_path is not None and not open_mesh(panel, panel.mesh_path, keep_forms=True):
+            state.hs_unit, state.hs_unit_from = previous  # the mesh still open was read in this one
+
+    @ctrl.set("hs_set_angle")
+    def set_angle(angle):
+        """A new feature angle splits untagged surfaces again."""
+        try:
+            state.hs_feature_angle = float(angle)
+        except (TypeError, ValueError):
+            state.hs_mesh_error = f"feature angle {angle!r} is not a number of degrees"
+            return
+        reload_mesh(panel)
+
+    @state.change("hs_upload")
+    def on_upload(hs_upload, **_):
+        """Store an uploaded file in the work folder and open it."""
+        if not hs_upload:
+            return
+        state.hs_upload_error = state.hs_mesh_error = ""  # a message about an earlier file no longer applies
+        try:
+            name, content = listing.unwrap_upload(hs_upload, hint="; put large meshes in the data folder")
+            path = listing.save_upload(panel.work_dir / "uploads", name, content)
+        except InputError as exc:
+            state.hs_upload_error = str(exc)
+            return
+        guard.request_open(panel, open_case if path.suffix == ".toml" else open_bare_mesh, path, upload=True)
+
+
+def reload_mesh(panel) -> None:
+    """Read the mesh again with the unit and feature angle now set."""
+    if panel.mesh_path is not None:
+        open_mesh(panel, panel.mesh_path, keep_forms=True)
+
+
+#: What the facts table says of the unit of a mesh file opened on its own.
+BARE_UNIT_NOTE = "the file states no unit: choose the one it was drawn in"
+
+
+def open_bare_mesh(panel, path: Path) -> bool:
+    """Open a mesh file on its own: it holds no unit, so it is read in metres (as a case file
+    without ``mesh.unit``), whatever the case opened before said; the facts table says so."""
+    state = panel.state
+    previous = state.hs_unit, state.hs_unit_from
+    state.hs_unit, state.hs_unit_from = "m", BARE_UNIT_NOTE
+    if not open_mesh(panel, path):
+        state.hs_unit, state.hs_unit_from = previous  # the mesh still open was read in this one
+        return False
+    return True
+
+
+def open_mesh(panel, path: Path, keep_forms: bool = False) -> bool:
+    """Read ``path`` with the unit and feature angle in the state and show it."""
+    state = panel.state
+    state.hs_mesh_error = ""
+    try:
+        mesh = read_mesh(path, state.hs_unit, float(state.hs_feature_angle))
+    except (InputError, OSError, ValueError) as exc:
+        state.hs_mesh_error = _plain(exc, path)
+        return False
+    panel.mesh, panel.mesh_path = mesh, Path(path)
+    panel.case_dir = Path(path).parent
+    state.hs_mesh_name = Path(path).name
+    state.hs_facts = summarize(mesh)
+    state.hs_unit_m = UNITS[state.hs_unit]
+    panel.scene.show_mesh(mesh)
+    setup_actions.mesh_changed(panel, keep_forms=keep_forms)
+    state.hs_playing = False
+    state.hs_view = "setup"
+    results_actions.refresh_rows(panel)
+    panel.reset_camera()
+    panel.update_view()
+    return True
+
+
+def _plain(exc, path) -> str:
+    """An error message without the machine's folders (the user knows the file by its name)."""
+    return str(exc).replace(str(Path(path).parent) + "/", "")
+
+
+def open_case(panel, path: Path) -> bool:
+    """Read a case file: its mesh, then fill every form from it."""
+    state = panel.state
+    try:
+        data = tomllib.loads(Path(path).read_text(encoding="utf-8"))
+    except (OSError, tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        state.hs_mesh_error = f"{Path(path).name}: cannot read the case file ({exc})"
+        return False
+    mesh_sec = data.get("mesh") if isinstance(data.get("mesh"), dict) else {}
+    angle = mesh_sec.get("feature_angle", 30.0)
+    if isinstance(angle, bool) or not isinstance(angle, (int, float)):
+        state.hs_mesh_error = f"{Path(path).name}: mesh.feature_angle {angle!r} is not a number of degrees"
+        return False
+    try:
+        mesh_path = (Path(path).parent / str(mesh_sec.get("file", ""))).resolve()
+    except (TypeError, ValueError):
+        mesh_path = None
+    if mesh_path is None or not mesh_path.is_file():
+        state.hs_mesh_error = f"{Path(path).name}: mesh.file {mesh_sec.get('file')!r} not found next to the case"
+        return False
+    previous = state.hs_unit, state.hs_feature_angle, state.hs_unit_from
+    state.hs_unit, state.hs_feature_angle = str(mesh_sec.get("unit", "m")), float(angle)
+    state.hs_unit_from = f"from {Path(path).name}" if "unit" in mesh_sec else f"{Path(path).name} names none: metres"
+    if not open_mesh(panel, mesh_path):
+        state.hs_unit, state.hs_feature_angle, state.hs_unit_from = previous  # the open mesh was read with these
+        state.hs_mesh_error = f"{Path(path).name}: {state.hs_mesh_error}"
+        return False
+    fill_forms_from_case(panel, data, Path(path).parent)
+    state.hs_case_name = Path(path).name
+    return True
+
+
+def fill_forms_from_case(panel, data: dict, base_dir: Path) -> None:
+    """Set the condition, material, time and probe forms from case data."""
+    state = panel.state
+
+    def read_table(name):
+        table = read_table_csv(base_dir / name)
+        return table.times, table.values
+
+    bcs = dict(panel.bcs)
+    for group, entry in (data.get("boundary") or {}).items():
+        if group in bcs and isinstance(entry, dict):
+            try:
+                bcs[group] = bc_form_from_case(entry, read_table)
+            except (InputError, ValueError, TypeError) as exc:
+                state.hs_mesh_error = f"boundary.{group}: {exc}"
+    mats = dict(panel.mats)
+    materials = data.get("material") if isinstance(data.get("material"), dict) else {}
+    for region in mats:
+        entry = materials.get(region) or materials.get("*")
+        if isinstance(entry, dict):
+            try:
+                mats[region] = material_actions.material_form(entry, read_table)
+            except (InputError, ValueError, TypeError) as exc:
+                state.hs_mesh_error = f"material.{region}.source: {exc}"
+    setup_actions.set_forms(panel, bcs=bcs, mats=mats, case=data)

@@ -1,0 +1,1 @@
+"""Running the set-up: the background run, its progress and cancelling."""

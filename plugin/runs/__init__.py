@@ -1,0 +1,1 @@
+"""The runs list: every run kept, labelled by what changed, overlaid or differenced."""
