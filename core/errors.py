@@ -38,6 +38,25 @@ class CaseError(InputError):
         super().__init__("\n".join(self.problems))
 
 
+class PathError(InputError):
+    """A file named in a case that may not be read: missing, not a regular file, too large,
+    or outside the folder it is confined to.
+
+    Parameters
+    ----------
+    key : str
+        Dotted case-file key that names the file (e.g. ``mesh.file``).
+    value : object
+        The name as given.
+    detail : str
+        What is wrong, without the key.
+    """
+
+    def __init__(self, key: str, value, detail: str):
+        self.key, self.value, self.detail = key, value, detail
+        super().__init__(f"{key} = {value!r}: {detail}")
+
+
 class StabilityError(InputError):
     """A time step above the stability limit of an explicit theta-method."""
 

@@ -8,6 +8,7 @@ from pathlib import Path
 
 import numpy as np
 from heatsoak.core.case.casefile import Case, check_case, load_case, stability_problem
+from heatsoak.core.case.paths import describe_limits
 from heatsoak.core.errors import CaseError
 from heatsoak.core.results.probes import ProbeSet
 from heatsoak.core.results.record import Recorder, bound_warnings
@@ -200,6 +201,7 @@ def cmd_check(args) -> int:
     print("\n".join(describe_case(case)))
     for w in [*case.mesh.warnings, *_probe_set(case).notes]:
         print(f"note      {w}")
+    print(f"limits    {describe_limits()}")
     return 0
 
 

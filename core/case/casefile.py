@@ -72,7 +72,8 @@ from heatsoak.core.case.check import (
     _read_probes,
     _read_time,
 )
-from heatsoak.core.errors import CaseError, StabilityError
+from heatsoak.core.case.paths import CasePaths
+from heatsoak.core.errors import CaseError, PathError, StabilityError
 from heatsoak.core.mesh.mesh import Mesh
 from heatsoak.core.problem.problem import Problem, TimeSettings
 
@@ -126,28 +127,27 @@ class Case:
         return self.problem.mesh
 
 
-def _build(data, base_dir, mesh: Mesh | None, source: str, stability: bool = False):
+def _build(data, paths: CasePaths, mesh: Mesh | None, source: str, stability: bool = False):
     """Read every section; returns (issues, parts) with parts None where a section failed.
 
     ``stability`` also checks an explicit theta's step against its limit; building a case to
     run skips it, since the stepper makes the same check once, on the operators it keeps.
     """
-    ck = _Checker(source)
+    ck = _Checker(source, paths)
     if not isinstance(data, dict):
         ck.bad("case", data, "expected TOML tables")
         return ck.issues, None
     ck.table(data, "", SECTIONS, required=REQUIRED_SECTIONS)
     if not isinstance(data.get("title", ""), str):
         ck.bad("title", data["title"], "expected text")
-    base_dir = Path(base_dir)
-    mesh, mesh_file, unit = _read_mesh_section(ck, data, base_dir, mesh)
+    mesh, mesh_file, unit = _read_mesh_section(ck, data, mesh)
     parts = {
         "mesh": mesh,
         "mesh_file": mesh_file,
         "unit": unit,
-        "materials": _read_materials(ck, data, base_dir, mesh),
-        "initial": _read_initial(ck, data, mesh, base_dir, unit),
-        "boundaries": _read_boundaries(ck, data, base_dir, mesh),
+        "materials": _read_materials(ck, data, mesh),
+        "initial": _read_initial(ck, data, mesh, unit),
+        "boundaries": _read_boundaries(ck, data, mesh),
         "time": _read_time(ck, data),
         "probes": _read_probes(ck, data, mesh, unit),
         "output_every": _read_output(ck, data),
@@ -178,7 +178,7 @@ def _check_stability(ck, parts) -> None:
         ck.add("time.step", message)
 
 
-def check_case_data(data: dict, base_dir, mesh: Mesh | None = None, source: str = "") -> list:
+def check_case_data(data: dict, base_dir, mesh: Mesh | None = None, source: str = "", root=None) -> list:
     """Every problem of a case given as data, as a list of :class:`Issue` (empty when fine).
 
     Parameters
@@ -191,14 +191,21 @@ def check_case_data(data: dict, base_dir, mesh: Mesh | None = None, source: str 
         The case's mesh if already read (skips reading ``mesh.file``).
     source : str
         Name of the case file, prefixed to each message.
+    root : path, optional
+        Confinement folder: every file the case names must lie inside it
+        (:class:`~heatsoak.core.case.paths.CasePaths`); None reads with the
+        user's own permissions.
     """
-    return _build(data, base_dir, mesh, source, stability=True)[0]
+    return _build(data, CasePaths(base_dir, root), mesh, source, stability=True)[0]
 
 
-def case_from_data(data: dict, base_dir, mesh: Mesh | None = None, path=None) -> Case:
-    """Build a runnable :class:`Case` from its data; CaseError listing every problem otherwise."""
+def case_from_data(data: dict, base_dir, mesh: Mesh | None = None, path=None, root=None) -> Case:
+    """Build a runnable :class:`Case` from its data; CaseError listing every problem otherwise.
+
+    ``root`` confines the files the case names, as in :func:`check_case_data`.
+    """
     source = "" if path is None else Path(path).name
-    issues, parts = _build(data, base_dir, mesh, source)
+    issues, parts = _build(data, CasePaths(base_dir, root), mesh, source)
     if issues:
         raise CaseError([i.message for i in issues])
     problem = Problem(parts["mesh"], parts["materials"], parts["boundaries"], parts["initial"])
@@ -207,34 +214,45 @@ def case_from_data(data: dict, base_dir, mesh: Mesh | None = None, path=None) ->
                 mesh_file=parts["mesh_file"], unit=parts["unit"])
 
 
-def read_case_toml(path) -> dict:
-    """The tables of a case file; CaseError naming the file (and line) if it cannot be read or parsed."""
+def read_case_toml(path, root=None) -> dict:
+    """The tables of a case file; CaseError naming the file (and line) if it cannot be read or parsed.
+
+    The file must be a regular file of at most ``paths.MAX_TABLE_BYTES`` (inside ``root`` when given).
+    """
     path = Path(path)
     try:
-        # utf-8-sig: editors on Windows start UTF-8 files with a byte-order mark, which TOML does not allow
-        return tomllib.loads(path.read_text(encoding="utf-8-sig"))
-    except FileNotFoundError:
-        raise CaseError(f"{path}: case file not found") from None
-    except OSError as exc:
-        raise CaseError(f"{path}: cannot read the case file ({exc.strerror})") from None
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        # utf-8-sig (in read_text): editors on Windows start UTF-8 files with a byte-order mark
+        _, text = CasePaths(path.parent, root).read_text("case file", path.name)
+        return tomllib.loads(text)
+    except PathError as exc:
+        what = "case file not found" if exc.detail.startswith("file not found") else exc.detail
+        raise CaseError(f"{path}: {what}") from None
+    except tomllib.TOMLDecodeError as exc:
         raise CaseError(f"{path}: not valid TOML: {exc}") from None
+    except RecursionError:
+        raise CaseError(f"{path}: not valid TOML: arrays or tables nested too deeply") from None
 
 
-def load_case(path) -> Case:
-    """Read, check and build the case in file ``path``; CaseError listing every problem."""
+def load_case(path, root=None) -> Case:
+    """Read, check and build the case in file ``path``; CaseError listing every problem.
+
+    ``root`` confines the case file and every file it names (see :func:`check_case_data`).
+    """
     path = Path(path)
-    return case_from_data(read_case_toml(path), path.parent, path=path)
+    return case_from_data(read_case_toml(path, root), path.parent, path=path, root=root)
 
 
-def check_case(path) -> list:
-    """Every problem of the case file ``path`` as a list of :class:`Issue` (empty when fine)."""
+def check_case(path, root=None) -> list:
+    """Every problem of the case file ``path`` as a list of :class:`Issue` (empty when fine).
+
+    ``root`` confines the case file and every file it names (see :func:`check_case_data`).
+    """
     path = Path(path)
     try:
-        data = read_case_toml(path)
+        data = read_case_toml(path, root)
     except CaseError as exc:
         return [Issue("", str(exc))]
-    return check_case_data(data, path.parent, source=path.name)
+    return check_case_data(data, path.parent, source=path.name, root=root)
 
 
 def _plain(x):

@@ -11,11 +11,11 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 from difflib import get_close_matches
-from pathlib import Path
 
 import numpy as np
 from heatsoak.core.case.initial_field import read_nodal_field
-from heatsoak.core.errors import InputError, ScheduleError
+from heatsoak.core.case.paths import CasePaths
+from heatsoak.core.errors import InputError, PathError, ScheduleError
 from heatsoak.core.mesh.read import UNITS, read_mesh, unit_scale
 from heatsoak.core.problem.problem import BOUNDARY_KINDS, MASS_KINDS, Boundary, Material, Probe, TimeSettings
 from heatsoak.core.problem.schedule import parse_schedule
@@ -68,8 +68,9 @@ def _is_number(x) -> bool:
 class _Checker:
     """Collects issues while the sections of a case are read."""
 
-    def __init__(self, source: str):
+    def __init__(self, source: str, paths: CasePaths):
         self.source = source
+        self.paths = paths
         self.issues: list[Issue] = []
 
     def add(self, key: str, message: str) -> None:
@@ -110,9 +111,9 @@ class _Checker:
             return None
         return float(v)
 
-    def schedule(self, value, key: str, base_dir):
+    def schedule(self, value, key: str):
         try:
-            return parse_schedule(value, key, base_dir)
+            return parse_schedule(value, key, read_text=self.paths.read_text)
         except ScheduleError as exc:
             self.add(getattr(exc, "key", key), getattr(exc, "detail", str(exc)))
             return None
@@ -126,7 +127,7 @@ class _Checker:
         return False
 
 
-def _read_mesh_section(ck: _Checker, data: dict, base_dir: Path, mesh):
+def _read_mesh_section(ck: _Checker, data: dict, mesh):
     sec = ck.table(data.get("mesh", {}), "mesh", MESH_KEYS, required=("file",))
     unit = sec.get("unit", "m")
     if unit not in UNITS:
@@ -137,7 +138,13 @@ def _read_mesh_section(ck: _Checker, data: dict, base_dir: Path, mesh):
     if file is not None and not isinstance(file, str):
         ck.bad("mesh.file", file, "expected a file name relative to the case file")
         file = None
-    path = None if file is None else base_dir / file
+    path = None
+    if file is not None:
+        try:
+            path = ck.paths.resolve_mesh("mesh.file", file)
+        except PathError as exc:
+            ck.add("mesh.file", f"{file!r}: {exc.detail}")
+            return mesh, None, unit or "m"
     if mesh is None and path is not None and unit is not None and angle is not None:
         try:
             mesh = read_mesh(path, unit, angle)
@@ -168,7 +175,7 @@ def _conductivity(ck: _Checker, value, key: str):
     return k
 
 
-def _read_materials(ck: _Checker, data: dict, base_dir: Path, mesh) -> dict:
+def _read_materials(ck: _Checker, data: dict, mesh) -> dict:
     sec = data.get("material", {})
     if not isinstance(sec, dict):
         ck.bad("material", sec, "expected tables [material.REGION] or [material.\"*\"]")
@@ -182,7 +189,7 @@ def _read_materials(ck: _Checker, data: dict, base_dir: Path, mesh) -> dict:
         rho = ck.number(t, key, "density", lo=0, open_lo=True)
         c = ck.number(t, key, "specific_heat", lo=0, open_lo=True)
         k = _conductivity(ck, t["conductivity"], f"{key}.conductivity") if "conductivity" in t else None
-        src = ck.schedule(t["source"], f"{key}.source", base_dir) if "source" in t else None
+        src = ck.schedule(t["source"], f"{key}.source") if "source" in t else None
         label = t.get("label", "")
         if not isinstance(label, str):
             ck.bad(f"{key}.label", label, "expected text")
@@ -196,12 +203,17 @@ def _read_materials(ck: _Checker, data: dict, base_dir: Path, mesh) -> dict:
     return {r: out[r if r in sec else "*"] for r in mesh.region_names if (r if r in sec else "*") in out}
 
 
-def _read_initial_file(ck: _Checker, value, base_dir: Path, mesh, unit: str):
+def _read_initial_file(ck: _Checker, value, mesh, unit: str):
     if not isinstance(value, str):
         ck.bad("initial.file", value, "expected a file name")
         return None
     try:
-        field = read_nodal_field(Path(base_dir) / value, mesh, unit_scale(unit))
+        path = ck.paths.resolve_mesh("initial.file", value)
+    except PathError as exc:
+        ck.add("initial.file", f"{value!r}: {exc.detail}")
+        return None
+    try:
+        field = read_nodal_field(path, mesh, unit_scale(unit))
     except InputError as exc:
         ck.add("initial.file", str(exc))
         return None
@@ -212,7 +224,7 @@ def _read_initial_file(ck: _Checker, value, base_dir: Path, mesh, unit: str):
     return field
 
 
-def _read_initial(ck: _Checker, data: dict, mesh, base_dir: Path = Path("."), unit: str = "m"):
+def _read_initial(ck: _Checker, data: dict, mesh, unit: str = "m"):
     raw = data.get("initial", {})
     need = () if isinstance(raw, dict) and "file" in raw else ("temperature",)
     sec = ck.table(raw, "initial", INITIAL_KEYS, required=need)
@@ -222,7 +234,7 @@ def _read_initial(ck: _Checker, data: dict, mesh, base_dir: Path = Path("."), un
     if "file" in sec:
         if mesh is None:
             return None
-        return _read_initial_file(ck, sec["file"], base_dir, mesh, unit)
+        return _read_initial_file(ck, sec["file"], mesh, unit)
     t0 = ck.number(sec, "initial", "temperature", lo=ABSOLUTE_ZERO_C)
     per = sec.get("region", {})
     if not isinstance(per, dict):
@@ -238,9 +250,9 @@ def _read_initial(ck: _Checker, data: dict, mesh, base_dir: Path = Path("."), un
     return {r: values.get(r, t0) for r in mesh.region_names}
 
 
-def _temperature_schedule(ck: _Checker, value, key: str, base_dir: Path):
+def _temperature_schedule(ck: _Checker, value, key: str):
     """A temperature schedule [degC] that never falls below absolute zero; None after reporting."""
-    sched = ck.schedule(value, key, base_dir)
+    sched = ck.schedule(value, key)
     lowest = None if sched is None else sched.lowest()
     if lowest is not None and lowest < ABSOLUTE_ZERO_C:
         ck.add(key, f"falls to {lowest:g} degC, below absolute zero ({ABSOLUTE_ZERO_C:g} degC)")
@@ -248,7 +260,7 @@ def _temperature_schedule(ck: _Checker, value, key: str, base_dir: Path):
     return sched
 
 
-def _read_boundary(ck: _Checker, key: str, spec, base_dir: Path):
+def _read_boundary(ck: _Checker, key: str, spec):
     if not isinstance(spec, dict):
         ck.bad(key, spec, f"expected a table with kind = one of {list(BOUNDARY_KINDS)}")
         return None
@@ -266,19 +278,18 @@ def _read_boundary(ck: _Checker, key: str, spec, base_dir: Path):
         if "ambient" not in t:
             ck.add(f"{key}.ambient", "missing (ambient temperature [degC], a number or a schedule)")
             return None
-        amb = _temperature_schedule(ck, t["ambient"], f"{key}.ambient", base_dir)
+        amb = _temperature_schedule(ck, t["ambient"], f"{key}.ambient")
         return None if h is None or amb is None or "h" not in t else Boundary("convection", h=h, ambient=amb)
     given = [k for k in SCHEDULE_KEYS if k in t]
     if len(given) != 1:
         ck.add(key, f"give exactly one of value = number, ramp = {{...}} or table = ...; found {given or 'none'}")
         return None
     value, at = (t["value"], f"{key}.value") if given == ["value"] else ({given[0]: t[given[0]]}, key)
-    sched = _temperature_schedule(ck, value, at, base_dir) if kind == "temperature" else \
-        ck.schedule(value, at, base_dir)
+    sched = _temperature_schedule(ck, value, at) if kind == "temperature" else ck.schedule(value, at)
     return None if sched is None else Boundary(kind, value=sched)
 
 
-def _read_boundaries(ck: _Checker, data: dict, base_dir: Path, mesh) -> dict:
+def _read_boundaries(ck: _Checker, data: dict, mesh) -> dict:
     sec = data.get("boundary", {})
     if not isinstance(sec, dict):
         ck.bad("boundary", sec, "expected tables [boundary.GROUP]")
@@ -288,7 +299,7 @@ def _read_boundaries(ck: _Checker, data: dict, base_dir: Path, mesh) -> dict:
         key = f"boundary.{name}"
         if mesh is not None and not ck.name(name, mesh.group_names, key, "surface group"):
             continue
-        b = _read_boundary(ck, key, spec, base_dir)
+        b = _read_boundary(ck, key, spec)
         if b is not None:
             out[name] = b
     return out

@@ -22,7 +22,7 @@ import re
 from pathlib import Path
 
 import numpy as np
-from heatsoak.core.errors import ScheduleError
+from heatsoak.core.errors import InputError, ScheduleError
 
 
 def _num(x) -> str:
@@ -257,22 +257,27 @@ def read_table_csv(path) -> Table:
         raise ScheduleError(f"{path}: table file not found") from None
     except (OSError, UnicodeDecodeError) as exc:
         raise ScheduleError(f"{path}: cannot read table file ({exc})") from None
+    return table_from_text(text, str(path))
+
+
+def table_from_text(text: str, source: str) -> Table:
+    """The table in CSV ``text`` (format of :func:`read_table_csv`); ``source`` names it in messages."""
     rows, first = [], True
     for lineno, line in enumerate(text.splitlines(), start=1):
         if not line.strip() or line.lstrip().startswith("#"):
             continue
-        row = _parse_row(_fields(line), f"{path}, row {lineno}", allow_text=first)
+        row = _parse_row(_fields(line), f"{source}, row {lineno}", allow_text=first)
         first = False
         if row is None:
             continue
         if rows and row[0] <= rows[-1][1][0]:
-            raise ScheduleError(f"{path}, row {lineno}: time {_num(row[0])} does not increase "
+            raise ScheduleError(f"{source}, row {lineno}: time {_num(row[0])} does not increase "
                                 f"(previous row {rows[-1][0]} has time {_num(rows[-1][1][0])})")
         rows.append((lineno, row))
     if not rows:
-        raise ScheduleError(f"{path}: no data rows (expected lines of 'time, value')")
+        raise ScheduleError(f"{source}: no data rows (expected lines of 'time, value')")
     data = np.array([r for _, r in rows])
-    return Table(data[:, 0], data[:, 1], source=str(path))
+    return Table(data[:, 0], data[:, 1], source=source)
 
 
 # --------------------------------------------------------------------------- case-file values
@@ -308,13 +313,18 @@ def _parse_ramp(spec, key: str) -> Ramp:
     return Ramp(spec["start"], spec["end"], spec.get("at", 0.0), spec["over"])
 
 
-def _parse_table(spec, key: str, base_dir) -> Table:
+def _parse_table(spec, key: str, base_dir, read_text) -> Table:
     if isinstance(spec, str):
-        path = Path(spec) if base_dir is None else Path(base_dir) / spec
         try:
-            table = read_table_csv(path)
+            if read_text is None:
+                table = read_table_csv(Path(spec) if base_dir is None else Path(base_dir) / spec)
+            else:
+                path, text = read_text(key, spec)
+                table = table_from_text(text, str(path))
         except ScheduleError as exc:
             raise _error(key, str(exc)) from None
+        except InputError as exc:  # the file may not be read: PathError names key and value
+            raise _error(key, f"{spec!r}: {getattr(exc, 'detail', exc)}") from None
         return Table(table.times, table.values, source=spec)
     if not isinstance(spec, list) or not spec:
         raise _error(key, f"expected a CSV file name or a non-empty list of [time, value] pairs, got {spec!r}")
@@ -328,7 +338,7 @@ def _parse_table(spec, key: str, base_dir) -> Table:
     return Table(data[:, 0], data[:, 1])
 
 
-def parse_schedule(value, key: str, base_dir=None) -> Schedule:
+def parse_schedule(value, key: str, base_dir=None, read_text=None) -> Schedule:
     """Build a schedule from its case-file value.
 
     Parameters
@@ -341,6 +351,11 @@ def parse_schedule(value, key: str, base_dir=None) -> Schedule:
         (e.g. ``"boundary.bore"`` gives ``"boundary.bore.ramp.over"``).
     base_dir : path, optional
         Folder that relative CSV file names are relative to.
+    read_text : callable, optional
+        ``read_text(key, name) -> (path, text)`` reads a table file named in
+        the case, raising InputError when it may not be read (the case
+        reader's :meth:`~heatsoak.core.case.paths.CasePaths.read_text`);
+        replaces reading ``base_dir / name`` directly.
 
     Raises
     ------
@@ -355,5 +370,5 @@ def parse_schedule(value, key: str, base_dir=None) -> Schedule:
     if isinstance(value, dict) and len(value) == 1 and set(value) <= {"ramp", "table"}:
         if "ramp" in value:
             return _parse_ramp(value["ramp"], f"{key}.ramp")
-        return _parse_table(value["table"], f"{key}.table", base_dir)
+        return _parse_table(value["table"], f"{key}.table", base_dir, read_text)
     raise _error(key, f"{value!r} is not a schedule; give {SCHEDULE_FORMS}")
