@@ -13,6 +13,7 @@ import sys
 from pathlib import Path
 
 from heatsoak.core.errors import InputError
+from heatsoak.plugin import startup
 from heatsoak.plugin.access import decide_access
 from heatsoak.plugin.load import listing
 
@@ -120,25 +121,35 @@ def _argv_for_trame(args, key) -> list:
 
 
 def cmd_ui(args) -> int:
-    """``heatsoak ui [input] [--data-dir] [--port] [--host] [--key-file] [--server]``."""
+    """``heatsoak ui [input] [--data-dir] [--work-dir] [--port] [--host] [--key-file] [--server]``.
+
+    Everything that can stop the start (port, host, key, data folder, input file) is checked
+    before the web server starts, each as one line and exit 2; a temporary work folder is removed
+    when the server stops.
+    """
     access = decide_access(args.host, args.key_file)
-    data_dir = Path(args.data_dir).resolve() if args.data_dir else None
+    args.port = startup.check_port(access.host, args.port)
     input_path = Path(args.input) if args.input else default_input()
-    if data_dir is None:
-        data_dir = input_path.resolve().parent if input_path.exists() else Path.cwd()
-    if not data_dir.is_dir():
-        raise InputError(f"--data-dir {args.data_dir}: not a folder")
-    if not input_path.exists():
+    if args.data_dir:
+        data_dir = startup.check_data_dir(args.data_dir)
+    else:
+        data_dir = input_path.resolve().parent if input_path.is_file() else Path.cwd().resolve()
+    if not input_path.is_file():
         raise InputError(f"{input_path}: no such mesh or case file")
     os.environ.setdefault("TRAME_WS_MAX_MSG_SIZE", str(listing.MAX_UPLOAD_BYTES + 1_000_000))
     from trame.app import get_server
 
-    server = get_server("heatsoak", client_type="vue3")
-    # Server-side rendering is the default; HEATSOAK_UI_VIEW=client renders with vtk.js in the browser.
-    build_app(server, input_path=input_path, data_dir=data_dir, view_mode=os.environ.get("HEATSOAK_UI_VIEW", "server"))
-    print(access.notice(args.port), flush=True)
-    sys.argv = _argv_for_trame(args, access.key)
-    quiet_closed_connections()
-    server.start(host=access.host, port=args.port, timeout=0, open_browser=not args.server,
-                 show_connection_info=False)
+    work = startup.WorkFolder.open(getattr(args, "work_dir", None))
+    try:
+        server = get_server("heatsoak", client_type="vue3")
+        # Server-side rendering is the default; HEATSOAK_UI_VIEW=client renders with vtk.js in the browser.
+        build_app(server, input_path=input_path, data_dir=data_dir, work_dir=work.path,
+                  view_mode=os.environ.get("HEATSOAK_UI_VIEW", "server"))
+        print(access.notice(args.port), work.notice(), sep="\n", flush=True)
+        sys.argv = _argv_for_trame(args, access.key)
+        quiet_closed_connections()
+        server.start(host=access.host, port=args.port, timeout=0, open_browser=not args.server,
+                     show_connection_info=False)
+    finally:
+        work.close()
     return 0

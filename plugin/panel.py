@@ -10,7 +10,7 @@ entries starting with ``hs_``; it calls only :mod:`heatsoak.core` for work.
 
 from __future__ import annotations
 
-import tempfile
+import atexit
 from pathlib import Path
 
 from heatsoak.plugin.export import actions as export_actions
@@ -23,6 +23,7 @@ from heatsoak.plugin.run import actions as run_actions
 from heatsoak.plugin.runs import layout as runs_layout
 from heatsoak.plugin.runs.store import RunStore
 from heatsoak.plugin.scene import Scene
+from heatsoak.plugin.startup import WorkFolder
 from heatsoak.plugin.setup import actions as setup_actions
 from heatsoak.plugin.setup import layout as setup_layout
 
@@ -45,7 +46,8 @@ class HeatPanel:
     data_dir : path, optional
         Folder the file list may open files from (default: current folder).
     work_dir : path, optional
-        Where uploads and run results go (default: a new temporary folder).
+        Where uploads and run results go, kept at exit (default: a new temporary folder, removed
+        when the Python process ends).
     view_mode : {"server", "client"}
         Rendering of :meth:`view_ui`.
     """
@@ -55,7 +57,11 @@ class HeatPanel:
         self.plotter = plotter
         self.scene = Scene(plotter)
         self.data_dir = Path(data_dir or ".").resolve()
-        self.work_dir = Path(work_dir or tempfile.mkdtemp(prefix="heatsoak-ui-")).resolve()
+        if work_dir is None:
+            temporary = WorkFolder.open(None)
+            atexit.register(temporary.close)
+            work_dir = temporary.path
+        self.work_dir = Path(work_dir).resolve()
         self.view_mode = view_mode
         self.mesh = None
         self.mesh_path = None

@@ -63,8 +63,11 @@ def _bench_args(p):
 
 def _ui_args(p):
     p.add_argument("input", nargs="?", help="mesh or case file to open (default: the demo case)")
-    p.add_argument("--data-dir", help="folder the file browser may open files from")
-    p.add_argument("--port", type=int, default=8080)
+    p.add_argument("--data-dir", help="folder the file browser may open files from (and the only one "
+                   "cases opened in the UI may name files in)")
+    p.add_argument("--work-dir", help="folder for uploads and run results, kept at exit (default: a temporary "
+                   "folder removed when the UI stops)")
+    p.add_argument("--port", default="8080", help="port to listen on, 1-65535 (default 8080)")
     p.add_argument("--host", default="127.0.0.1", help="interface to bind (default 127.0.0.1)")
     p.add_argument("--key-file", help="file holding the access key (needed when --host is not loopback)")
     p.add_argument("--server", action="store_true", help="do not open a browser")

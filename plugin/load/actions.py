@@ -30,21 +30,22 @@ def register(panel) -> None:
         """List the current folder of the data folder."""
         try:
             state.hs_files = listing.list_files(panel.data_dir, state.hs_dir)
-        except (InputError, OSError) as exc:
+        except (InputError, OSError, ValueError) as exc:
             state.hs_dir, state.hs_mesh_error = "", str(exc)
             state.hs_files = listing.list_files(panel.data_dir, "")
 
     @ctrl.set("hs_open")
-    def open_entry(path, kind):
-        """Open a row of the file list: enter a folder, read a mesh or a case."""
-        if kind == "folder":
-            state.hs_dir = path
-            refresh_files()
-            return
+    def open_entry(path, kind=None):
+        """Open a row of the file list: enter a folder, read a mesh or a case. The row's kind is
+        found again here from the file itself (``kind`` from the browser is not trusted)."""
         try:
-            target = listing.inside(panel.data_dir, path)
+            target, kind = listing.entry_of(panel.data_dir, path)
         except InputError as exc:
             state.hs_mesh_error = str(exc)
+            return
+        if kind == "folder":
+            state.hs_dir = listing.relative(panel.data_dir, target)
+            refresh_files()
             return
         guard.request_open(panel, open_case if kind == "case" else open_bare_mesh, target)
 

@@ -6,7 +6,9 @@ resolved and checked to lie inside it.
 
 from __future__ import annotations
 
+import os
 import re
+import stat
 from pathlib import Path
 
 from heatsoak.core.errors import InputError
@@ -24,41 +26,105 @@ def inside(root, name) -> Path:
     Raises
     ------
     InputError
-        When ``name`` is absolute or climbs out of ``root`` (``..``, links).
+        When ``name`` is not a plain relative name (absolute, a NUL byte, not text) or leads out
+        of ``root`` (``..``, links); a link loop resolves to itself and is refused when opened.
     """
-    root = Path(root).resolve()
-    candidate = (root / str(name)).resolve()
-    if Path(str(name)).is_absolute() or (candidate != root and root not in candidate.parents):
-        raise InputError(f"file {name!r}: only files inside the data folder can be opened")
+    root = Path(os.path.realpath(root))
+    text = str(name)
+    if not isinstance(name, (str, os.PathLike)) or "\0" in text or Path(text).is_absolute():
+        raise InputError(f"file {_shown(text)}: only files inside the data folder can be opened")
+    candidate = Path(os.path.realpath(root / text))
+    if candidate != root and root not in candidate.parents:
+        raise InputError(f"file {_shown(text)}: only files inside the data folder can be opened")
     return candidate
 
 
+def _shown(name: str, most: int = 80) -> str:
+    """A browser-supplied name as it may appear in a message: quoted, control characters escaped, cut short."""
+    text = repr(str(name))
+    return text if len(text) <= most else text[: most - 4] + "...'"
+
+
+#: What the file list says of entries it will not open.
+BLOCKED_NOTES = {"outside": "a link leading outside the data folder", "broken": "a link leading nowhere (or a loop)",
+                 "special": "not a regular file"}
+
+
+def _kind(entry: os.DirEntry, root: Path) -> tuple[str, str]:
+    """(kind, resolved path relative to root) of one folder entry; kind "blocked-<why>" for links
+    out of the data folder, dangling or looping links and special files."""
+    real = Path(os.path.realpath(entry.path))
+    if real != root and root not in real.parents:
+        return "blocked-outside", ""
+    try:
+        mode = real.stat().st_mode
+    except OSError:
+        return "blocked-broken", ""
+    rel = real.relative_to(root).as_posix() if real != root else ""
+    if stat.S_ISDIR(mode):
+        return "folder", rel
+    if not stat.S_ISREG(mode):
+        return "blocked-special", ""
+    suffix = Path(entry.name).suffix.lower()
+    return ("mesh" if suffix in MESH_SUFFIXES else "case" if suffix in CASE_SUFFIXES else ""), rel
+
+
 def list_files(root, sub: str = "") -> list[dict]:
-    """Folders and usable files of ``root/sub``, folders first.
+    """Folders and usable files of ``root/sub``, folders first; entries that cannot be opened safely
+    (links leading out of the data folder, dangling or looping links, devices and pipes) are listed
+    as ``blocked`` with a note, never followed.
 
     Returns
     -------
     list of dict
-        ``{"name", "path" (relative to root), "kind" ("folder"|"mesh"|"case"), "size" (bytes)}``.
+        ``{"name", "path" (relative to root), "kind" ("folder"|"mesh"|"case"|"blocked"), "size" (bytes),
+        "note"}``.
     """
-    root_r = Path(root).resolve()
+    root_r = Path(os.path.realpath(root))
     here = inside(root_r, sub or ".")
     rows = []
-    for p in sorted(here.iterdir(), key=lambda p: (not p.is_dir(), p.name.lower())):
-        if p.name.startswith("."):
-            continue
-        suffix = p.suffix.lower()
-        if p.is_dir():
-            kind = "folder"
-        elif suffix in MESH_SUFFIXES:
-            kind = "mesh"
-        elif suffix in CASE_SUFFIXES:
-            kind = "case"
-        else:
-            continue
-        rel = p.resolve().relative_to(root_r).as_posix() if p.resolve() != root_r else ""
-        rows.append({"name": p.name, "path": rel, "kind": kind, "size": p.stat().st_size if kind != "folder" else 0})
-    return rows
+    with os.scandir(here) as entries:
+        for entry in entries:
+            if entry.name.startswith("."):
+                continue
+            kind, rel = _kind(entry, root_r)
+            if not kind:
+                continue
+            blocked = kind.startswith("blocked-")
+            if blocked and Path(entry.name).suffix.lower() not in ("",) + MESH_SUFFIXES + CASE_SUFFIXES:
+                continue  # not a folder, mesh or case: it would not be listed anyway
+            size = (root_r / rel).stat().st_size if kind in ("mesh", "case") else 0
+            rows.append({"name": entry.name, "path": rel, "kind": "blocked" if blocked else kind, "size": size,
+                         "note": BLOCKED_NOTES[kind[8:]] if blocked else ""})
+    return sorted(rows, key=lambda r: (r["kind"] != "folder", r["name"].lower()))
+
+
+def entry_of(root, name) -> tuple[Path, str]:
+    """(resolved path, kind) of a name the browser sent from the file list: the kind is found here
+    ("folder", "mesh" or "case"), never taken from the browser.
+
+    Raises
+    ------
+    InputError
+        When the name leads outside ``root`` or to something that is not a folder, mesh or case file.
+    """
+    target = inside(root, name)
+    try:
+        mode = target.stat().st_mode
+    except OSError:
+        raise InputError(f"file {_shown(name)}: not found in the data folder") from None
+    suffix = target.suffix.lower()
+    if stat.S_ISDIR(mode):
+        return target, "folder"
+    if stat.S_ISREG(mode) and suffix in MESH_SUFFIXES + CASE_SUFFIXES:
+        return target, "case" if suffix in CASE_SUFFIXES else "mesh"
+    raise InputError(f"file {_shown(name)}: not a folder, mesh or case file")
+
+
+def relative(root, path: Path) -> str:
+    """``path`` (already inside ``root``) relative to it, "" for the top."""
+    rel = Path(path).relative_to(Path(os.path.realpath(root))).as_posix()
+    return "" if rel == "." else rel
 
 
 def parent_of(sub: str) -> str:

@@ -6,7 +6,8 @@ from heatsoak.plugin.widgets import after_edits, errors_of, note, number, sectio
 from trame.widgets import html
 from trame.widgets import vuetify3 as v3
 
-FILE_ICON = "f.kind == 'folder' ? 'mdi-folder-outline' : (f.kind == 'case' ? 'mdi-file-cog-outline' : 'mdi-cube-outline')"
+FILE_ICON = ("f.kind == 'folder' ? 'mdi-folder-outline' : (f.kind == 'case' ? 'mdi-file-cog-outline' : "
+             "(f.kind == 'blocked' ? 'mdi-link-off' : 'mdi-cube-outline'))")
 
 
 def build(panel) -> None:
@@ -47,8 +48,9 @@ def mesh_section(panel) -> None:
                 v3.VBtn(icon="mdi-refresh", size="x-small", variant="text", click=ctrl.hs_refresh_files,
                         title="List the folder again (files added since)", id="hs-refresh-files")
             with v3.VList(density="compact", classes="hs-files", max_height=170, id="hs-files"):
-                v3.VListItem(v_for="f in hs_files", key="f.path", title=("f.name",), prepend_icon=(FILE_ICON,),
+                v3.VListItem(v_for="f in hs_files", key="f.name", title=("f.name",), prepend_icon=(FILE_ICON,),
                              click=after_edits(panel.server, ctrl.hs_open, "[f.path, f.kind]"),
+                             subtitle=("f.note",), disabled=("f.kind == 'blocked'",),
                              active=("hs_mesh_name == f.name",), color="#2f5d50", density="compact", classes="hs-file")
             v3.VFileInput(v_model=("hs_upload", None), label=("`Upload a mesh or case (up to ${hs_max_upload_mb} MB)`",),
                           density="compact", variant="outlined", prepend_icon="mdi-upload", show_size=True,
