@@ -18,6 +18,7 @@ from heatsoak.core.app.cli import main
 from heatsoak.core.errors import InputError
 from heatsoak.plugin.load import listing
 from heatsoak.plugin.startup import WorkFolder
+from uidriver import free_port
 
 MESHES = Path(__file__).resolve().parent.parent / "meshes"
 DEMO = MESHES / "platen_warmup.toml"
@@ -121,12 +122,6 @@ def test_a_temporary_work_folder_is_removed_and_a_named_one_kept(tmp_path):
     named.close()
     assert not temp.path.exists() and (named.path / "x").exists()
     assert "removed when the UI stops" in temp.notice() and "kept in" in named.notice()
-
-
-def free_port() -> int:
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
 
 
 def test_the_ui_starts_on_a_hostile_folder_and_removes_its_work_folder_when_stopped(tmp_path):
