@@ -141,7 +141,8 @@ def _read_mesh_section(ck: _Checker, data: dict, mesh):
     path = None
     if file is not None:
         try:
-            path = ck.paths.resolve_mesh("mesh.file", file)
+            # a mesh already read is not read again, but its name must still be one the case may use
+            path = ck.paths.locate("mesh.file", file) if mesh is not None else ck.paths.resolve_mesh("mesh.file", file)
         except PathError as exc:
             ck.add("mesh.file", f"{file!r}: {exc.detail}")
             return mesh, None, unit or "m"
