@@ -122,15 +122,15 @@ def test_an_element_on_a_node_the_file_does_not_define_is_named(tmp_path, capsys
     assert "refers to a node, element or set 5 that it does not define" in err
 
 
-def test_tetra_with_a_hexahedron_keeps_the_tetra_and_says_what_was_ignored(tmp_path):
+def test_tetra_with_a_distant_hexahedron_keeps_both_as_two_bodies(tmp_path):
     m = _box()
     hexa = np.array([[20, 0, 0], [21, 0, 0], [21, 1, 0], [20, 1, 0], [20, 0, 1], [21, 0, 1], [21, 1, 1], [20, 1, 1]])
     n = len(m.points)
     raw = meshio.Mesh(np.vstack([m.points, hexa]), [("tetra", m.cells), ("hexahedron", np.arange(n, n + 8)[None])])
     meshio.write(tmp_path / "th.vtu", raw)
     mesh = read_mesh(tmp_path / "th.vtu")
-    assert mesh.n_cells == len(m.cells) and mesh.n_nodes == n
-    assert any("hexahedron 1" in w for w in mesh.warnings)
+    assert mesh.n_nodes == n + 8 and mesh.splits == ("1 hexahedron split into 6 tetrahedra",)
+    assert any("2 disconnected bodies" in w for w in mesh.warnings)
 
 
 # ----------------------------------------------------------------------------- case files

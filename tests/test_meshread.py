@@ -51,7 +51,7 @@ def test_gmsh_41_and_22_give_the_same_mesh_with_names(gmsh_dir):
     a, b = read_mesh(gmsh_dir / "v41.msh"), read_mesh(gmsh_dir / "v22.msh")
     for m in (a, b):
         assert m.region_names == ("left", "right")
-        assert m.group_names == ("xmin", "xmax", "untagged")
+        assert m.group_names == ("xmin", "xmax", "untagged-1", "untagged-2", "untagged-3", "untagged-4")  # four sides apart
         assert m.order == 1
     assert (a.n_nodes, a.n_cells, a.n_faces) == (b.n_nodes, b.n_cells, b.n_faces)
     assert _counts(a, a.group_names, a.face_group) == _counts(b, b.group_names, b.face_group)
@@ -68,14 +68,14 @@ def test_every_format_round_trips(gmsh_dir, tmp_path, ext):
         assert len(back.group_names) == 6  # untagged: split at edges, the six sides of the 2 x 1 x 1 box
     else:  # integer tags: names are "region-<tag>" / "group-<tag>"
         assert back.region_names == ("region-1", "region-2")
-        assert back.group_names == ("group-1", "group-2", "group-3")
+        assert back.group_names == tuple(f"group-{i}" for i in range(1, 7))
         assert sorted(np.bincount(back.face_group)) == sorted(np.bincount(ref.face_group))
 
 
 def test_quadratic_mesh_stays_quadratic(gmsh_dir, tmp_path):
     m = read_mesh(gmsh_dir / "p2.msh")
     assert m.order == 2 and m.cells.shape[1] == 10 and m.faces.shape[1] == 6
-    assert m.group_names == ("xmin", "xmax", "untagged")
+    assert m.group_names == ("xmin", "xmax", "untagged-1", "untagged-2", "untagged-3", "untagged-4")
     back = read_mesh(_export(m, tmp_path / "p2.vtu"))
     assert back.order == 2 and back.n_nodes == m.n_nodes
 
@@ -111,11 +111,18 @@ def test_tagged_triangles_match_by_node_set_in_any_order():
     np.testing.assert_array_equal(built.face_group, m.face_group)
 
 
-def test_faces_without_tag_form_the_remainder_group():
+def test_faces_without_tag_are_split_at_sharp_edges_like_an_untagged_boundary():
     m = box_mesh((3, 3, 3))
     built = build_mesh(m.points, m.cells, m.cell_region, m.region_names, _box_tags(m, ["xmin", "zmax"]))
-    assert built.group_names == ("xmin", "zmax", "untagged")
-    assert np.bincount(built.face_group).tolist() == [18, 18, 4 * 18]
+    assert built.group_names == ("xmin", "zmax", "untagged-1", "untagged-2", "untagged-3", "untagged-4")
+    assert np.bincount(built.face_group).tolist() == [18] * 6  # the cube's other four sides
+
+
+def test_a_remainder_in_one_smooth_piece_keeps_the_name_untagged():
+    m = box_mesh((3, 3, 3))
+    tags = _box_tags(m, ["xmin", "xmax", "ymin", "ymax", "zmin"])
+    built = build_mesh(m.points, m.cells, m.cell_region, m.region_names, tags)
+    assert built.group_names[-1] == "untagged" and np.bincount(built.face_group)[-1] == 18
 
 
 def test_interfaces_between_regions_are_not_boundary():
@@ -271,7 +278,7 @@ def test_gmsh_box_regions_and_groups_are_exact(gmsh_dir):
     vol = np.bincount(m.cell_region, weights=cell_volumes(m.points, m.cells))
     area = np.bincount(m.face_group, weights=face_areas(m.points, m.faces))
     np.testing.assert_allclose(vol, [1.0, 1.0], rtol=1e-12)  # two unit cubes
-    np.testing.assert_allclose(area, [1.0, 1.0, 8.0], rtol=1e-12)  # two ends, four 2 x 1 sides
+    np.testing.assert_allclose(area, [1.0, 1.0, 2.0, 2.0, 2.0, 2.0], rtol=1e-12)  # two ends, four 2 x 1 sides
 
 
 @pytest.fixture(scope="module")
@@ -305,18 +312,12 @@ def test_ball_volume_error_converges_at_second_order_and_quadratic_elements_do_b
     assert err[0.15, 2] < err[0.15, 1] / 100.0
 
 
-def test_other_cell_types_are_ignored_and_listed(tmp_path):
+def test_cells_of_lower_dimension_are_ignored_and_listed(tmp_path):
     m = box_mesh((2, 2, 2))
-    hexa = ("hexahedron", np.arange(8)[None, :])
-    path = _write_box(
-        tmp_path / "hex.vtu", extra=[hexa, ("line", m.faces[:2, :2]), ("vertex", np.array([[0]]))]
-    )
+    path = _write_box(tmp_path / "lines.vtu", extra=[("line", m.faces[:2, :2]), ("vertex", np.array([[0]]))])
     got = read_mesh(path)
     assert got.n_cells == m.n_cells
-    assert (
-        "ignored cells that are neither tetrahedra nor triangles: hexahedron 1, line 2, vertex 1"
-        in got.warnings
-    )
+    assert "ignored cells that are neither solid cells nor surface faces: line 2, vertex 1" in got.warnings
 
 
 def test_overlapping_element_sets_put_each_element_in_the_smallest(tmp_path):

@@ -41,7 +41,8 @@ def summarize(mesh: Mesh) -> dict:
     dict with keys file, unit, nodes, elements, element_order, regions
     [{name, elements, volume}], surface_groups [{name, faces, area}],
     interfaces, bounding_box {min, max}, volume, area, quality
-    {measure, min, median, max, poor, poor_below}, warnings.
+    {measure, min, median, max, poor, poor_below}, split (cells of other shapes
+    split into tetrahedra, "648 hexahedra split into 3240 tetrahedra"), warnings.
     """
     vol = cell_volumes(mesh.points, mesh.cells)
     area = face_areas(mesh.points, mesh.faces)
@@ -77,6 +78,7 @@ def summarize(mesh: Mesh) -> dict:
             "poor": int((q < POOR_SHAPE).sum()),
             "poor_below": POOR_SHAPE,
         },
+        "split": list(mesh.splits),
         "warnings": list(mesh.warnings),
     }
 
@@ -102,6 +104,7 @@ def format_summary(d: dict) -> str:
         f"file           {d['file'] or '(generated)'}   (unit {d['unit']}, shown in metres)",
         f"nodes          {d['nodes']}",
         f"elements       {d['elements']} {'linear (tetra)' if d['element_order'] == 1 else 'quadratic (tetra10)'}",
+        *(f"split          {s}" for s in d.get("split", ())),
         f"bounding box   [{', '.join(f'{v:.6g}' for v in lo)}] .. [{', '.join(f'{v:.6g}' for v in hi)}] m",
         f"volume         {d['volume']:.6g} m^3, boundary area {d['area']:.6g} m^2",
         f"interfaces     {d['interfaces']} faces between regions",

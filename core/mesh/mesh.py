@@ -66,6 +66,9 @@ class Mesh:
         The file the mesh came from ("" when generated).
     unit : str
         The length unit of the file; ``points`` are already in metres.
+    splits : tuple of str
+        Cells of other shapes split into tetrahedra on reading
+        ("648 hexahedra split into 3240 tetrahedra").
     """
 
     points: np.ndarray
@@ -80,6 +83,7 @@ class Mesh:
     warnings: tuple = ()
     source: str = ""
     unit: str = "m"
+    splits: tuple = ()
 
     @property
     def order(self) -> int:

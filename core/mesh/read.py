@@ -17,7 +17,14 @@ from pathlib import Path
 import numpy as np
 from heatsoak.core.errors import InputError, MeshError
 from heatsoak.core.mesh.mesh import TET_EDGES, Mesh
-from heatsoak.core.mesh.surface import feature_groups, interface_faces, match_tagged_faces, pair_rows, unique_rows
+from heatsoak.core.mesh.surface import (
+    feature_groups,
+    interface_faces,
+    match_tagged_faces,
+    pair_rows,
+    split_remainder,
+    unique_rows,
+)
 from heatsoak.core.mesh.tags import split_blocks
 from heatsoak.core.mesh.topology import all_faces, reorient, signed_volumes
 from scipy.sparse import coo_matrix
@@ -84,7 +91,7 @@ def read_mesh(path, unit: str = "m", feature_angle: float = 30.0) -> Mesh:
     scale = unit_scale(unit)
     path = Path(path)
     raw, notes = read_raw(path)
-    points, cells, region, names, tagged, more = split_blocks(raw, path)
+    points, cells, region, names, tagged, more, splits = split_blocks(raw, path)
     points = points * scale
     if len(points):
         doubt = unit_doubt(float(np.ptp(points, axis=0).max()), unit)
@@ -99,6 +106,7 @@ def read_mesh(path, unit: str = "m", feature_angle: float = 30.0) -> Mesh:
         source=str(path),
         unit=unit,
         warnings=(*notes, *more),
+        splits=splits,
     )
 
 
@@ -176,6 +184,7 @@ def build_mesh(
     source: str = "",
     unit: str = "m",
     warnings=(),
+    splits=(),
 ) -> Mesh:
     """Check and repair element arrays and find boundary, interfaces and groups.
 
@@ -192,6 +201,7 @@ def build_mesh(
     source : str, the file, for messages
     unit : str, the file's length unit, recorded only
     warnings : sequence of str, carried into ``Mesh.warnings``
+    splits : sequence of str, what was split into tetrahedra, carried into ``Mesh.splits``
 
     Returns
     -------
@@ -234,8 +244,8 @@ def build_mesh(
                 f"no tagged triangle lies on the boundary; surfaces split at {feature_angle:g} degree edges"
             )
             grouping = None
-    if grouping is None:
-        grouping = feature_groups(points, faces, feature_angle)
+    grouping = feature_groups(points, faces, feature_angle) if grouping is None else split_remainder(
+        points, faces, grouping, feature_angle)
     notes += _unmerged(points, faces)
     notes += _bodies(cells, len(points))
     return Mesh(
@@ -251,6 +261,7 @@ def build_mesh(
         warnings=tuple(notes),
         source=source,
         unit=unit,
+        splits=tuple(splits),
     )
 
 

@@ -237,3 +237,29 @@ def _unmatched_notes(tri, tri_label, off, names, interior_keys):
         listed = ", ".join(f"{names[i]} {c}" for i, c in enumerate(counts) if c)
         if listed:
             yield f"tagged triangles that {what} were not used as boundary faces: {listed}"
+
+
+def split_remainder(points: np.ndarray, faces: np.ndarray, grouping: Grouping, feature_angle: float) -> Grouping:
+    """Split the :data:`REMAINDER` group of a partly tagged boundary at sharp edges, as an
+    untagged boundary is (:func:`feature_groups`): "untagged-1", "untagged-2", ... by
+    descending area; one piece keeps the name "untagged".
+
+    Parameters
+    ----------
+    points : (n_nodes, 3)
+    faces : (n_faces, 3 or 6) int, the boundary faces ``grouping`` labels
+    grouping : Grouping of those faces
+    feature_angle : float, degrees
+    """
+    if REMAINDER not in grouping.names:
+        return grouping
+    rest = grouping.names.index(REMAINDER)
+    mine = np.flatnonzero(grouping.face_group == rest)
+    pieces = feature_groups(points, faces[mine], feature_angle)
+    if len(pieces.names) == 1:
+        return grouping
+    kept = [n for n in grouping.names if n != REMAINDER]
+    names = (*kept, *(f"{REMAINDER}-{i + 1}" for i in range(len(pieces.names))))
+    label = grouping.face_group - (grouping.face_group > rest)
+    label[mine] = len(kept) + pieces.face_group
+    return Grouping(label, names, grouping.notes)
