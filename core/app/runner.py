@@ -56,7 +56,7 @@ def _summary(case: Case, stepper, rec: Recorder, files: ResultFiles, status: str
     }
 
 
-def run_case(case: Case, out_dir, progress=None, should_stop=None) -> dict:
+def run_case(case: Case, out_dir, progress=None, should_stop=None, assembler=None) -> dict:
     """Run ``case``, writing result files into ``out_dir`` as the run goes.
 
     Parameters
@@ -68,6 +68,8 @@ def run_case(case: Case, out_dir, progress=None, should_stop=None) -> dict:
         Called with a :class:`~heatsoak.core.solve.stepping.Progress` after every step.
     should_stop : callable, optional
         Polled after every step; when it returns True the run stops cleanly.
+    assembler : Assembler, optional
+        An assembler of ``case.mesh`` whose pattern and geometry are reused (sweeps).
 
     Returns
     -------
@@ -79,7 +81,7 @@ def run_case(case: Case, out_dir, progress=None, should_stop=None) -> dict:
     t0 = _time.perf_counter()
     probes = _probe_set(case)
     rec = Recorder(case.mesh, probes, [p.threshold for p in case.probes])
-    stepper = ThetaMethod(case.problem, case.time, progress=progress)
+    stepper = ThetaMethod(case.problem, case.time, progress=progress, assembler=assembler)
     files = ResultFiles(out_dir, case.mesh, probes.names)
     clock = {"setup": _time.perf_counter() - t0, "output": 0.0}
     every, pending, status, error = case.output_every, None, "failed", ""
