@@ -18,6 +18,7 @@ COMMANDS = {
     "inspect": ("heatsoak.core.mesh.inspect", "cmd_inspect", "show what heatsoak understood of a mesh file"),
     "check": ("heatsoak.core.app.runner", "cmd_check", "validate a case file without running it"),
     "run": ("heatsoak.core.app.runner", "cmd_run", "run a case file headless and write result files"),
+    "sweep": ("heatsoak.core.app.sweep.command", "cmd_sweep", "run many variants of a case on a dask cluster, one table"),
     "bench": ("heatsoak.core.app.bench", "cmd_bench", "measure assembly and solver speed on cube meshes"),
     "ui": ("heatsoak.plugin.app", "cmd_ui", "start the browser UI"),
 }
@@ -55,6 +56,20 @@ def _run_args(p):
     p.add_argument("--quiet", action="store_true", help="no progress bar")
 
 
+def _sweep_args(p):
+    p.add_argument("case", help="case file (TOML) the variants start from")
+    p.add_argument("--vary", action="append", metavar="KEY=VALUES",
+                   help="a dotted case key and a TOML array of values, e.g. 'boundary.bore.ramp.over=[300, 600]'; "
+                   "several --vary make every combination")
+    p.add_argument("--list", metavar="FILE", help="CSV of variants: a header of keys (and optionally 'variant'), "
+                   "one variant a row, cells as TOML values")
+    p.add_argument("--out", required=True, help="sweep folder: variants/, one results folder per variant, sweep.csv")
+    p.add_argument("--workers", type=int, help="worker processes of the local cluster (default: the cores)")
+    p.add_argument("--scheduler", metavar="ADDRESS", help="tcp://host:port of a running dask scheduler to use instead")
+    p.add_argument("--plot", metavar="COLUMN", help="table column plotted against each key (default: first probe's max)")
+    p.add_argument("--quiet", action="store_true", help="no line per finished variant")
+
+
 def _bench_args(p):
     p.add_argument("--sizes", default="small,medium,large", help="comma list of small, medium, large")
     p.add_argument("--json", help="also write the numbers to this JSON file")
@@ -73,7 +88,8 @@ def _ui_args(p):
     p.add_argument("--server", action="store_true", help="do not open a browser")
 
 
-_ARGUMENTS = {"inspect": _inspect_args, "check": _check_args, "run": _run_args, "bench": _bench_args, "ui": _ui_args}
+_ARGUMENTS = {"inspect": _inspect_args, "check": _check_args, "run": _run_args, "sweep": _sweep_args,
+              "bench": _bench_args, "ui": _ui_args}
 
 
 def main(argv=None) -> int:

@@ -144,7 +144,7 @@ def _stop(client, event, pending: dict, on_row, poll: float) -> None:
     except KeyboardInterrupt:  # a second Ctrl-C: stop waiting for them
         pass
     client.cancel(list(pending))
-    for f, task in pending.items():
+    for task in pending.values():
         on_row(Row(task.name, task.values, "cancelled"))
     pending.clear()
 
