@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import math
 import re
+import warnings
 from pathlib import Path
 
 import numpy as np
@@ -108,8 +109,8 @@ class Table(Schedule):
     """
 
     def __init__(self, times, values, source: str = ""):
-        t = np.asarray(times, dtype=float).ravel()
-        v = np.asarray(values, dtype=float).ravel()
+        t = np.array(times, dtype=float).ravel()
+        v = np.array(values, dtype=float).ravel()
         if t.size == 0 or t.shape != v.shape:
             raise ScheduleError(f"a table needs n >= 1 times and n values, got {t.size} and {v.size}")
         if not (np.isfinite(t).all() and np.isfinite(v).all()):
@@ -118,6 +119,7 @@ class Table(Schedule):
             i = int(np.argmax(np.diff(t) <= 0)) + 1
             raise ScheduleError(f"table times must increase: point {i + 1} has time {_num(t[i])} "
                                 f"after {_num(t[i - 1])}")
+        t.flags.writeable = v.flags.writeable = False  # shared by breakpoints() without copying
         self.times, self.values, self.source = t, v, str(source)
 
     def __call__(self, t):
@@ -131,7 +133,7 @@ class Table(Schedule):
         return _shape_like(t, slopes[np.searchsorted(self.times, tt, side="right")])
 
     def breakpoints(self) -> np.ndarray:
-        return self.times.copy()
+        return self.times  # read-only: steppers ask for it every step
 
     def describe(self) -> str:
         where = f" from {self.source}" if self.source else ""
@@ -260,8 +262,46 @@ def read_table_csv(path) -> Table:
     return table_from_text(text, str(path))
 
 
+def _fast_table(lines: list) -> np.ndarray | None:
+    """(n, 2) rows of data ``lines`` parsed by numpy in one go, or None when any line needs the
+    row-by-row parser (a header, a mixed separator, a decimal comma, a bad or non-finite number,
+    times that do not increase); that parser then gives the exact message."""
+    if not lines:
+        return None
+    head = _fields(lines[0])
+    skip = 1 if len(head) == 2 and not any(_is_float(f) for f in head) else 0
+    sep = ";" if ";" in lines[0] else "," if "," in lines[0] else None
+    body = lines[skip:]
+    if sep == ";":
+        body = [line.replace(",", ".") for line in body]
+    try:
+        with warnings.catch_warnings():  # "input contained no data": the row parser says it better
+            warnings.simplefilter("ignore", UserWarning)
+            data = np.loadtxt(body, delimiter=sep, comments=None, dtype=float, ndmin=2)
+    except ValueError:
+        return None
+    # numpy skips blank lines as the row parser does, and nothing else (comments=None)
+    ok = data.shape[1:] == (2,) and data.size and np.isfinite(data).all() and np.all(np.diff(data[:, 0]) > 0)
+    return data if ok else None
+
+
 def table_from_text(text: str, source: str) -> Table:
-    """The table in CSV ``text`` (format of :func:`read_table_csv`); ``source`` names it in messages."""
+    """The table in CSV ``text`` (format of :func:`read_table_csv`); ``source`` names it in messages.
+
+    Well-formed text is parsed by numpy in one go (a million rows in about a second); anything
+    else goes row by row so the message names the row.
+    """
+    lines = text.splitlines()
+    if "#" in text or not lines or not lines[0].strip():
+        lines = [line for line in lines if line.strip() and not line.lstrip().startswith("#")]
+    data = _fast_table(lines)
+    if data is not None:
+        return Table(data[:, 0], data[:, 1], source=source)
+    return _rows_table(text, source)
+
+
+def _rows_table(text: str, source: str) -> Table:
+    """:func:`table_from_text` row by row, naming the row of the first problem."""
     rows, first = [], True
     for lineno, line in enumerate(text.splitlines(), start=1):
         if not line.strip() or line.lstrip().startswith("#"):

@@ -177,7 +177,7 @@ def _schedule_range(schedule, end: float):
     """(min, max) of a piecewise-linear schedule over [0, end]."""
     bp = np.asarray(schedule.breakpoints(), dtype=float)
     t = np.concatenate([[0.0, end], bp[(bp > 0) & (bp < end)]])
-    v = np.array([float(schedule(x)) for x in t])
+    v = np.asarray(schedule(t), dtype=float)
     return v.min(), v.max()
 
 
