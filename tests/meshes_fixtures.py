@@ -23,14 +23,15 @@ def _session(name: str):
         gmsh.finalize()
 
 
-def _write(path, order, version):
+def _write(path, order, version, binary=False):
     if order == 2:
         gmsh.model.mesh.setOrder(2)
     gmsh.option.setNumber("Mesh.MshFileVersion", version)
+    gmsh.option.setNumber("Mesh.Binary", int(binary))
     gmsh.write(str(path))
 
 
-def two_boxes(path, version=4.1, order=1, size=0.4):
+def two_boxes(path, version=4.1, order=1, size=0.4, binary=False):
     """Unit cubes [0,1]^3 "left" and [1,2]x[0,1]^2 "right", sharing the face x=1.
 
     Physical surfaces: "xmin" (x = 0) and "xmax" (x = 2); the other
@@ -48,7 +49,7 @@ def two_boxes(path, version=4.1, order=1, size=0.4):
             gmsh.model.addPhysicalGroup(2, [t for _, t in tags], name=name)
         gmsh.option.setNumber("Mesh.MeshSizeMax", size)
         gmsh.model.mesh.generate(3)
-        _write(path, order, version)
+        _write(path, order, version, binary)
     return path
 
 

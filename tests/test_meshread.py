@@ -256,12 +256,14 @@ def test_truncated_file_is_a_mesh_error_naming_it(gmsh_dir, tmp_path, fraction):
 
 
 @pytest.mark.parametrize(
-    ("name", "content"), [("junk.vtu", b"\x00\x01garbage"), ("junk.msh", b"$MeshFormat\nx\n")]
+    ("name", "content", "cause"),
+    [("junk.vtu", b"\x00\x01garbage", "junk.vtu: format not recognised: a .vtu file should be vtu"),
+     ("junk.msh", b"$MeshFormat\nx\n", "cannot read mesh file .*junk.msh")],
 )
-def test_corrupt_file_is_a_mesh_error_naming_it(tmp_path, name, content):
+def test_corrupt_file_is_a_mesh_error_naming_it(tmp_path, name, content, cause):
     path = tmp_path / name
     path.write_bytes(content)
-    with pytest.raises(MeshError, match=f"cannot read mesh file .*{name}"):
+    with pytest.raises(MeshError, match=cause):
         read_mesh(path)
 
 

@@ -5,6 +5,7 @@ from __future__ import annotations
 import copy
 
 import pytest
+from box_case import BASE, make_case
 from heatsoak.core.case.overrides import (
     apply_assignment,
     apply_assignments,
@@ -13,8 +14,6 @@ from heatsoak.core.case.overrides import (
     parse_value,
 )
 from heatsoak.core.errors import CaseError
-
-from box_case import BASE, make_case
 
 
 @pytest.mark.parametrize("text, key, value", [

@@ -10,12 +10,11 @@ repaired or ignored is listed in ``Mesh.warnings``.
 
 from __future__ import annotations
 
-import contextlib
-import io
 from pathlib import Path
 
 import numpy as np
 from heatsoak.core.errors import InputError, MeshError
+from heatsoak.core.mesh.files import read_raw
 from heatsoak.core.mesh.mesh import TET_EDGES, Mesh
 from heatsoak.core.mesh.surface import (
     feature_groups,
@@ -108,70 +107,6 @@ def read_mesh(path, unit: str = "m", feature_angle: float = 30.0) -> Mesh:
         warnings=(*notes, *more),
         splits=splits,
     )
-
-
-def _formats(path: Path) -> list:
-    """meshio format names for the file's extension, gmsh first (.msh is also ANSYS's)."""
-    import meshio
-
-    table = meshio.extension_to_filetypes
-    suffix = "".join(path.suffixes[-2:]).lower()
-    formats = table.get(suffix) or table.get(path.suffix.lower()) or []
-    return sorted(formats, key=lambda f: f != "gmsh")
-
-
-def _reader(fmt: str):
-    """meshio's reader of ``fmt``: called directly because meshio.read() prints
-    and exits the interpreter when a reader fails."""
-    import meshio
-
-    try:
-        from meshio._helpers import reader_map
-
-        return reader_map[fmt]
-    except (ImportError, KeyError):  # a meshio that moved its table: the public call
-        return lambda name: meshio.read(name, file_format=fmt)
-
-
-def _reader_problem(fmt: str, exc: BaseException) -> str:
-    """One line saying why the ``fmt`` reader failed, in words where the exception has none."""
-    if isinstance(exc, KeyError):
-        # readers look nodes and sets up by their ids: a missing one is a broken reference
-        key = exc.args[0] if exc.args else "?"
-        key = key.item() if isinstance(key, np.generic) else key
-        return f"as {fmt}: it refers to a node, element or set {key!r} that it does not define"
-    if fmt == "gmsh" and "Incompatible cell data 'gmsh:physical'" in str(exc):
-        # meshio's msh 4 reader fails when some elements are in a physical group and others not
-        return ("as gmsh: saved with Mesh.SaveAll=1 beside physical groups, which meshio cannot read; "
-                "put every volume in a physical volume and save without Mesh.SaveAll")
-    return f"as {fmt}: {type(exc).__name__}: {exc}" if str(exc) else f"not readable as {fmt}"
-
-
-def read_raw(path: Path):
-    """meshio's reading of ``path``, with every failure turned into MeshError.
-
-    What the reader prints is kept as warnings.
-    """
-    import meshio
-
-    if not path.is_file():
-        raise MeshError(f"mesh file {path} not found")
-    formats = _formats(path)
-    if not formats:
-        known = ", ".join(sorted(meshio.extension_to_filetypes))
-        raise MeshError(f"{path}: unknown mesh file extension {path.suffix!r}; readable: {known}")
-    problems = []
-    for fmt in formats:
-        out = io.StringIO()
-        try:
-            with contextlib.redirect_stdout(out), contextlib.redirect_stderr(out):
-                raw = _reader(fmt)(str(path))
-        except (Exception, SystemExit) as exc:  # noqa: BLE001 - each reader fails its own way on a bad file
-            problems.append(_reader_problem(fmt, exc))
-            continue
-        notes = tuple(f"reader: {line.strip()}" for line in out.getvalue().splitlines() if line.strip())
-        return raw, notes
-    raise MeshError(f"cannot read mesh file {path} (corrupt or truncated?): {'; '.join(problems)}")
 
 
 def build_mesh(
@@ -278,10 +213,13 @@ def _as_arrays(points, cells, cell_region, region_names, where):
         )
     if len(cells) == 0:
         raise MeshError(f"no tetrahedra in {where}")
-    if cells.min() < 0 or cells.max() >= len(points):
+    if cells.min() < 0:
+        e = int(np.argmax((cells < 0).any(axis=1)))
+        raise MeshError(f"{where}: element {e} refers to node index {cells.min()}: node indices cannot be "
+                        "negative (a broken or hand-edited file)")
+    if cells.max() >= len(points):
         raise MeshError(
-            f"{where}: an element refers to node {cells.max() if cells.min() >= 0 else cells.min()} "
-            f"but there are only {len(points)} nodes (truncated file?)"
+            f"{where}: an element refers to node {cells.max()} but there are only {len(points)} nodes (truncated file?)"
         )
     if cell_region.shape != (len(cells),) or cell_region.min() < 0 or cell_region.max() >= len(region_names):
         raise MeshError(

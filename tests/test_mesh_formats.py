@@ -1,0 +1,145 @@
+"""A corpus the tests build: gmsh-written MSH 4.0/4.1/2.2 (ASCII and binary), meshio-written
+MED/VTU/XDMF, hand-written .inp decks. Every accepted file keeps the whole body's volume (the
+two unit cubes of :func:`meshes_fixtures.two_boxes`: 1 + 1 m^3, geometry) and its names."""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+import meshio
+import numpy as np
+import pytest
+from heatsoak.core.errors import MeshError
+from heatsoak.core.mesh.geometry import cell_volumes, face_areas
+from heatsoak.core.mesh.read import read_mesh
+from meshes_fixtures import two_boxes
+
+NAMES = ("v4.0a", "v4.1a", "v4.1b", "v2.2a", "v2.2b")
+SIDES = ("untagged-1", "untagged-2", "untagged-3", "untagged-4")
+
+
+@pytest.fixture(scope="module")
+def msh_dir(tmp_path_factory):
+    d = tmp_path_factory.mktemp("msh")
+    for name in NAMES:  # gmsh writes MSH 4.0 in ASCII only
+        two_boxes(d / f"{name}.msh", float(name[1:4]), size=0.5, binary=name.endswith("b"))
+    return d
+
+
+def _volumes(mesh):
+    return dict(zip(mesh.region_names, np.bincount(mesh.cell_region, weights=cell_volumes(mesh.points, mesh.cells))))
+
+
+def _areas(mesh):
+    return dict(zip(mesh.group_names, np.bincount(mesh.face_group, weights=face_areas(mesh.points, mesh.faces))))
+
+
+@pytest.mark.parametrize("name", NAMES)
+def test_every_msh_version_gmsh_writes_is_read_whole_with_its_names(msh_dir, name):
+    mesh = read_mesh(msh_dir / f"{name}.msh")
+    vol, area = _volumes(mesh), _areas(mesh)
+    assert mesh.region_names == ("left", "right") and mesh.group_names == ("xmin", "xmax", *SIDES)
+    np.testing.assert_allclose([vol["left"], vol["right"]], [1.0, 1.0], rtol=1e-12)
+    np.testing.assert_allclose([area[n] for n in mesh.group_names], [1, 1, 2, 2, 2, 2], rtol=1e-12)
+    assert mesh.n_cells == read_mesh(msh_dir / "v4.1a.msh").n_cells
+    said = any("gmsh's own reader" in w for w in mesh.warnings)
+    assert said == name.startswith("v4.0")  # meshio reads the others itself
+
+
+def test_without_gmsh_an_msh_40_file_says_how_to_install_it(msh_dir, monkeypatch):
+    monkeypatch.setitem(sys.modules, "gmsh", None)  # import gmsh now fails
+    with pytest.raises(MeshError, match=r"v4.0a.msh.*pip install gmsh"):
+        read_mesh(msh_dir / "v4.0a.msh")
+
+
+def test_gmsh_reading_leaves_an_open_gmsh_session_as_it_was(msh_dir):
+    gmsh = pytest.importorskip("gmsh")
+    gmsh.initialize(["", "-nopopup"], interruptible=False)
+    try:
+        gmsh.model.add("callers-model")
+        read_mesh(msh_dir / "v4.0a.msh")
+        assert gmsh.isInitialized() and gmsh.model.getCurrent() == "callers-model"
+    finally:
+        gmsh.finalize()
+
+
+def _reference(msh_dir):
+    return read_mesh(msh_dir / "v4.1a.msh")
+
+
+def test_med_group_names_are_read_and_family_0_is_no_group(msh_dir, tmp_path):
+    ref = _reference(msh_dir)
+    # MED keeps groups as families: cells carry a family number, each family lists its groups
+    cell_fam = np.where(ref.cell_region == 0, -3, -4)
+    face_fam = np.select([ref.face_group == 0, ref.face_group == 1], [-5, -6], 0)  # the sides: family 0
+    out = meshio.Mesh(ref.points, [("tetra", ref.cells), ("triangle", ref.faces)],
+                      cell_data={"cell_tags": [cell_fam, face_fam]})
+    out.cell_tags = {-3: ["left"], -4: ["right"], -5: ["xmin"], -6: ["xmax"]}
+    meshio.write(tmp_path / "m.med", out)
+    mesh = read_mesh(tmp_path / "m.med")
+    assert mesh.region_names == ("left", "right") and mesh.group_names == ("xmin", "xmax", *SIDES)
+    np.testing.assert_allclose(list(_volumes(mesh).values()), [1.0, 1.0], rtol=1e-12)
+
+
+def test_a_physical_array_is_preferred_to_a_geometrical_one_whatever_the_alphabet(msh_dir, tmp_path):
+    ref = _reference(msh_dir)
+    centre = ref.points[ref.faces[:, :3]].mean(axis=1)
+    cad_face = 10 + np.argmax(np.abs(centre - 0.5 * np.array([2, 1, 1])), axis=1)  # several per named side
+    data = {"physical": [ref.cell_region + 1, ref.face_group + 1],
+            "geometrical": [np.arange(ref.n_cells) % 7, cad_face]}
+    meshio.write(tmp_path / "m.vtu", meshio.Mesh(ref.points, [("tetra", ref.cells), ("triangle", ref.faces)],
+                                                 cell_data=data))
+    mesh = read_mesh(tmp_path / "m.vtu")
+    assert mesh.region_names == ("region-1", "region-2")
+    assert len(mesh.group_names) == 6 and np.array_equal(np.bincount(mesh.face_group), np.bincount(ref.face_group))
+
+
+def test_a_negative_gmsh_physical_tag_is_the_same_group(msh_dir, tmp_path):
+    ref = _reference(msh_dir)
+    xmin = ref.face_group == 0
+    tag = np.where(xmin, np.where(np.arange(ref.n_faces) % 2 == 0, 5, -5), 6)  # half of xmin written -5
+    raw = meshio.Mesh(ref.points, [("tetra", ref.cells), ("triangle", ref.faces)],
+                      cell_data={"gmsh:physical": [ref.cell_region + 1, tag],
+                                 "gmsh:geometrical": [np.ones(ref.n_cells, int), np.ones(ref.n_faces, int)]},
+                      field_data={"left": np.array([1, 3]), "right": np.array([2, 3]),
+                                  "hot": np.array([5, 2]), "rest": np.array([6, 2])})
+    meshio.write(tmp_path / "neg.msh", raw, file_format="gmsh22", binary=False)
+    mesh = read_mesh(tmp_path / "neg.msh")
+    assert mesh.group_names == ("hot", "rest")
+    np.testing.assert_allclose(_areas(mesh)["hot"], 1.0, rtol=1e-12)
+
+
+def test_xdmf_written_by_meshio_keeps_the_volume(msh_dir, tmp_path):
+    ref = _reference(msh_dir)
+    meshio.write(tmp_path / "m.xdmf", meshio.Mesh(ref.points, [("tetra", ref.cells)],
+                                                  cell_data={"region": [ref.cell_region]}))
+    mesh = read_mesh(tmp_path / "m.xdmf")
+    np.testing.assert_allclose(sorted(_volumes(mesh).values()), [1.0, 1.0], rtol=1e-12)
+
+
+def test_a_file_that_cannot_be_opened_says_permission_denied(msh_dir, monkeypatch):
+    target = msh_dir / "v4.1a.msh"
+    real_open = Path.open
+
+    def refuse(self, *args, **kwargs):
+        if self == target:
+            raise PermissionError(13, "Permission denied", str(self))
+        return real_open(self, *args, **kwargs)
+
+    monkeypatch.setattr(Path, "open", refuse)
+    with pytest.raises(MeshError, match="v4.1a.msh: permission denied"):
+        read_mesh(target)
+
+
+def test_a_negative_node_index_is_named_as_such(tmp_path):
+    ref = meshio.Mesh(np.eye(4)[:, :3], [("tetra", np.array([[0, 1, 2, -1]]))])
+    meshio.write(tmp_path / "neg.vtu", ref)
+    with pytest.raises(MeshError, match="neg.vtu: element 0 refers to node index -1: node indices cannot be negative"):
+        read_mesh(tmp_path / "neg.vtu")
+
+
+def test_a_file_of_another_format_is_said_to_be_unrecognised(tmp_path):
+    (tmp_path / "a.vtk").write_text("$MeshFormat\n4.1 0 8\n$EndMeshFormat\n")
+    with pytest.raises(MeshError, match="a.vtk: format not recognised.*begins '\\$MeshFormat"):
+        read_mesh(tmp_path / "a.vtk")
