@@ -14,6 +14,7 @@ from heatsoak.core.results.probes import ProbeSet
 from heatsoak.core.results.record import Recorder, bound_warnings
 from heatsoak.core.results.writer import ResultFiles
 from heatsoak.core.solve.stepping import ThetaMethod
+from heatsoak.core.solve.stepping.base import planned_step_times
 
 #: Exit code of a run stopped with Ctrl-C (128 + SIGINT, common practice).
 EXIT_CANCELLED = 130
@@ -176,8 +177,9 @@ def describe_case(case: Case) -> list:
     rest = [g for g in m.group_names if g not in case.problem.boundaries]
     if rest:
         lines.append(f"boundary  insulated (not listed): {', '.join(rest)}")
-    n = int(np.ceil(tm.end / tm.step - 1e-9))
-    lines.append(f"time      0 to {tm.end:g} s, step {tm.step:g} s (about {n} steps), theta {tm.theta:g}, "
+    n, plain = len(planned_step_times(case.problem, tm)), int(np.ceil(tm.end / tm.step - 1e-9))
+    extra = f", {n - plain} more than end/step for schedule corners and start steps" if n > plain else ""
+    lines.append(f"time      0 to {tm.end:g} s, step {tm.step:g} s ({n} steps{extra}), theta {tm.theta:g}, "
                  f"{tm.mass} mass, solver {tm.solver}")
     for p in case.probes:
         thr = "" if p.threshold is None else f", threshold {p.threshold:g} degC"

@@ -31,6 +31,21 @@ def as_schedule(value):
     return Constant(float(value))
 
 
+def problem_schedules(problem: Problem) -> list:
+    """Every schedule that drives ``problem``: prescribed temperatures, heat fluxes, ambient
+    temperatures of convection and sources, as :func:`build_operators` applies them."""
+    out = []
+    for bc in problem.boundaries.values():
+        value = bc.ambient if bc.kind == "convection" else bc.value if bc.kind in ("temperature", "heat_flux") else None
+        if value is not None:
+            out.append(as_schedule(value))
+    for name in problem.mesh.region_names:
+        mat = problem.materials.get(name)
+        if mat is not None and mat.source is not None:
+            out.append(as_schedule(mat.source))
+    return out
+
+
 @dataclass
 class Operators:
     """Assembled operators of one problem.

@@ -12,6 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 from heatsoak.core.errors import InputError
+from heatsoak.core.fem.operators import jump_times, problem_schedules
 
 #: Relative tolerance for merging a grid time with a breakpoint [fraction of dt].
 MERGE = 1e-6
@@ -79,6 +80,52 @@ def step_times(end: float, dt: float, marks=()) -> np.ndarray:
         pts[nearest] = marks
     pts[-1] = end
     return pts
+
+
+def default_start_steps(theta: float, start_steps: int | None) -> int:
+    """Backward-Euler half steps at the start and after jumps: as given, else 4 for
+    0.5 <= theta < 1 (where Crank-Nicolson-like methods ring after a sudden change), else 0."""
+    if start_steps is not None:
+        return int(start_steps)
+    return 4 if 0.5 <= theta < 1.0 else 0
+
+
+def plan_steps(end: float, dt: float, marks=(), jumps=(), start_steps: int = 0):
+    """Step end times with the damped start steps, and which of them are damped.
+
+    After t = 0 and after every jump time in ``jumps``, the first
+    ``(start_steps + 1) // 2`` steps of :func:`step_times` are split into
+    backward-Euler half steps, ``start_steps`` steps in all (Rannacher start).
+
+    Returns
+    -------
+    grid : (n_steps,) increasing array ending with ``end`` [s]
+    damped : (k,) array, the end times of the damped steps [s]
+    """
+    grid = step_times(end, dt, marks)
+    if start_steps <= 0:
+        return grid, np.zeros(0)
+    n_full = (start_steps + 1) // 2
+    restarts = np.concatenate([[0.0], np.asarray(jumps, dtype=float)])
+    restarts = np.unique(restarts[restarts < end])
+    damped = []
+    for r in restarts:  # one pass per jump, each a binary search
+        i = int(np.searchsorted(grid, r, side="right"))
+        lead = np.concatenate([[r], grid[i:i + n_full]])
+        damped.append(np.sort(np.concatenate([0.5 * (lead[:-1] + lead[1:]), lead[1:]]))[:start_steps])
+    damped = np.concatenate(damped)
+    return np.unique(np.concatenate([damped, grid])), damped
+
+
+def planned_step_times(problem, time) -> np.ndarray:
+    """The step end times [s] a run of ``problem`` with ``time`` (TimeSettings) will take, found
+    from its schedules without assembling anything (for ``check``)."""
+    scheds = problem_schedules(problem)
+    marks = [np.asarray(s.breakpoints(), dtype=float) for s in scheds]
+    marks.append(np.asarray(time.output_times, dtype=float))
+    jumps = np.concatenate([np.zeros(0), *(jump_times(s) for s in scheds)])
+    start = default_start_steps(float(time.theta), time.start_steps)
+    return plan_steps(time.end, time.step, np.concatenate(marks), jumps, start)[0]
 
 
 class Integrator:

@@ -23,8 +23,6 @@ of K v = lambda M v on the free nodes.
 
 from __future__ import annotations
 
-from itertools import pairwise
-
 import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
@@ -33,7 +31,7 @@ from heatsoak.core.fem.assembly import Assembler
 from heatsoak.core.fem.operators import build_operators, left_value
 from heatsoak.core.problem.problem import Problem, TimeSettings
 from heatsoak.core.solve.linear import choose_solver, make_solver, stiffness_ratio
-from heatsoak.core.solve.stepping.base import Integrator, step_times
+from heatsoak.core.solve.stepping.base import Integrator, default_start_steps, plan_steps
 
 #: Named values of theta.
 THETA_PRESETS = {"forward-euler": 0.0, "crank-nicolson": 0.5, "galerkin": 2.0 / 3.0, "backward-euler": 1.0}
@@ -134,10 +132,7 @@ class ThetaMethod(Integrator):
         self.dt_critical = None
         if theta < 0.5:
             self._check_stability()
-        start = time.start_steps
-        if start is None:
-            start = 4 if 0.5 <= theta < 1.0 else 0
-        self.start_steps = int(start)
+        self.start_steps = default_start_steps(theta, time.start_steps)
         self._energy = dict(stored_J=0.0, boundary_in_J=0.0, source_in_J=0.0, dirichlet_in_J=0.0)
         self._rates = []  # (mid-step time [s], free-node increment / step [K/s]) of the last two steps
         self._jump_times = set(self.ops.jumps().tolist())
@@ -195,21 +190,11 @@ class ThetaMethod(Integrator):
         return T
 
     def times(self) -> np.ndarray:
-        dt = self.settings.step
-        marks = list(self.ops.breakpoints()) + list(self.settings.output_times)
-        grid = step_times(self.end, dt, marks)
+        marks = np.concatenate([self.ops.breakpoints(), np.asarray(self.settings.output_times, dtype=float)])
         # Rannacher start: after t = 0 and after every jump of a schedule, the first steps are
         # replaced by backward-Euler half steps (their end times are kept in self._damped).
-        damped = []
-        if self.start_steps > 0:
-            n_full = (self.start_steps + 1) // 2
-            for r in [0.0, *(j for j in self.ops.jumps() if j < self.end)]:
-                first = list(grid[grid > r][:n_full])
-                lead = [r] + first
-                halves = [0.5 * (a + b) for a, b in pairwise(lead)]
-                damped += sorted(halves + first)[: self.start_steps]
-            grid = np.unique(np.concatenate([damped, grid]))
-        self._damped = set(damped)
+        grid, damped = plan_steps(self.end, self.settings.step, marks, self.ops.jumps(), self.start_steps)
+        self._damped = set(damped.tolist())
         return grid
 
     def _solver(self, dt: float, theta: float):
