@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import sys
 import time as _time
 from pathlib import Path
@@ -12,6 +13,7 @@ from heatsoak.core.case.paths import describe_limits
 from heatsoak.core.errors import CaseError
 from heatsoak.core.results.probes import ProbeSet
 from heatsoak.core.results.record import Recorder, bound_warnings
+from heatsoak.core.results.time_error import TimeErrorRecord, margin_warnings
 from heatsoak.core.results.writer import ResultFiles
 from heatsoak.core.solve.stepping import ThetaMethod
 from heatsoak.core.solve.stepping.base import planned_step_times
@@ -31,8 +33,23 @@ def _bound_warnings(case: Case, rec: Recorder) -> list:
     return bound_warnings(case.problem, case.time.end, rec.minimum.value, rec.maximum.value)
 
 
-def _summary(case: Case, stepper, rec: Recorder, files: ResultFiles, status: str, clock: dict) -> dict:
+def _time_error(case: Case, rec: Recorder, terr: TimeErrorRecord) -> tuple:
+    """(summary entries, warnings) of the estimated time-step error."""
+    hist = rec.probe_history
+    history = {name: hist[:, i] for i, name in enumerate(terr.per_probe)}
+    warn = margin_warnings(terr.per_probe, {p.name: p.threshold for p in case.probes}, history)
+    entries = {
+        "time_error": dict(terr.per_probe),
+        "time_error_field": terr.field,
+        "time_error_method": "step doubling: a companion run at half the step, Richardson extrapolation (p = 1)",
+    }
+    return entries, warn
+
+
+def _summary(case: Case, stepper, rec: Recorder, files: ResultFiles, status: str, clock: dict,
+             terr: TimeErrorRecord) -> dict:
     times = rec.times
+    errors, error_warnings = _time_error(case, rec, terr)
     return {
         "status": status,
         "case": "" if case.path is None else case.path.name,
@@ -51,7 +68,9 @@ def _summary(case: Case, stepper, rec: Recorder, files: ResultFiles, status: str
         },
         "probes": {p.name: {"threshold": p.threshold, "crossing_time": rec.crossings().get(p.name)}
                    for p in case.probes},
-        "warnings": list(case.mesh.warnings) + getattr(rec.probes, "notes", []) + _bound_warnings(case, rec),
+        **errors,
+        "warnings": (list(case.mesh.warnings) + getattr(rec.probes, "notes", []) + _bound_warnings(case, rec)
+                     + error_warnings),
         "energy": stepper.energy(),
         "solver": stepper.report(),
     }
@@ -82,7 +101,9 @@ def run_case(case: Case, out_dir, progress=None, should_stop=None, assembler=Non
     t0 = _time.perf_counter()
     probes = _probe_set(case)
     rec = Recorder(case.mesh, probes, [p.threshold for p in case.probes])
-    stepper = ThetaMethod(case.problem, case.time, progress=progress, assembler=assembler)
+    settings = dataclasses.replace(case.time, error_estimate=True)
+    stepper = ThetaMethod(case.problem, settings, progress=progress, assembler=assembler)
+    terr = TimeErrorRecord(probes)
     files = ResultFiles(out_dir, case.mesh, probes.names)
     clock = {"setup": _time.perf_counter() - t0, "output": 0.0}
     every, pending, status, error = case.output_every, None, "failed", ""
@@ -95,7 +116,8 @@ def run_case(case: Case, out_dir, progress=None, should_stop=None, assembler=Non
                 files.field.write(t, T)
                 pending = None
             else:
-                pending = (t, T)
+                pending = (t, T, stepper.estimator.error)
+            terr.record(stepper.estimator.error, pending is None)
             clock["output"] += _time.perf_counter() - t1
             if should_stop is not None and should_stop():
                 stepper.cancel()
@@ -107,10 +129,11 @@ def run_case(case: Case, out_dir, progress=None, should_stop=None, assembler=Non
         raise
     finally:
         if pending is not None:
-            files.field.write(*pending)
+            files.field.write(*pending[:2])
+            terr.record(pending[2], True)
         clock["wall"] = _time.perf_counter() - t0
         clock["stepping"] = _time.perf_counter() - tick - clock["output"]
-        summary = _summary(case, stepper, rec, files, status, clock)
+        summary = _summary(case, stepper, rec, files, status, clock, terr)
         if status == "failed":
             summary["error"] = error
         summary = files.finish(summary)
@@ -177,10 +200,13 @@ def describe_case(case: Case) -> list:
     rest = [g for g in m.group_names if g not in case.problem.boundaries]
     if rest:
         lines.append(f"boundary  insulated (not listed): {', '.join(rest)}")
-    n, plain = len(planned_step_times(case.problem, tm)), int(np.ceil(tm.end / tm.step - 1e-9))
-    extra = f", {n - plain} more than end/step for schedule corners and start steps" if n > plain else ""
-    lines.append(f"time      0 to {tm.end:g} s, step {tm.step:g} s ({n} steps{extra}), theta {tm.theta:g}, "
-                 f"{tm.mass} mass, solver {tm.solver}")
+    if tm.tolerance is not None:
+        steps = f"adaptive steps to a time-step error of {tm.tolerance:g} K, at most {tm.step:g} s"
+    else:
+        n, plain = len(planned_step_times(case.problem, tm)), int(np.ceil(tm.end / tm.step - 1e-9))
+        extra = f", {n - plain} more than end/step for schedule corners and start steps" if n > plain else ""
+        steps = f"step {tm.step:g} s ({n} steps{extra})"
+    lines.append(f"time      0 to {tm.end:g} s, {steps}, theta {tm.theta:g}, {tm.mass} mass, solver {tm.solver}")
     for p in case.probes:
         thr = "" if p.threshold is None else f", threshold {p.threshold:g} degC"
         lines.append(f"probe     {p.name} at {_fmt_point(p.point, case.unit, UNITS[case.unit])}{thr}")
@@ -209,6 +235,19 @@ def cmd_check(args) -> int:
     return 0
 
 
+def _error_lines(summary: dict) -> list:
+    """The estimated time-step error, as printed after a run."""
+    per_probe = summary.get("time_error") or {}
+    solver = summary.get("solver") or {}
+    tol = solver.get("tolerance")
+    how = (f"adaptive steps to {tol:g} K ({solver.get('rejected_steps', 0)} retaken)" if tol is not None
+           else "fixed step")
+    lines = [f"time-step error ({how}): at most {summary.get('time_error_field', 0.0):.3g} K in the field "
+             f"at the written steps; {solver.get('factorizations', 0)} factorisations"]
+    lines += [f"probe {name}: time-step error at most {e:.3g} K" for name, e in per_probe.items()]
+    return lines
+
+
 def _report(summary: dict, out_dir: Path) -> list:
     t = summary["temperature"]
     lines = [(f"{summary['status']}: {summary['steps']} steps to t = {summary['end_time']:g} s "
@@ -223,6 +262,7 @@ def _report(summary: dict, out_dir: Path) -> list:
         if p["threshold"] is not None:
             when = "not reached" if p["crossing_time"] is None else f"reached at t = {p['crossing_time']:.4g} s"
             lines.append(f"probe {name}: {p['threshold']:g} degC {when}")
+    lines.extend(_error_lines(summary))
     lines.append(f"energy balance: relative imbalance {summary['energy']['relative_imbalance']:.2e}")
     lines.extend(f"warning: {w}" for w in summary.get("warnings", []))
     lines.append(summary["note"])

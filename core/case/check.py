@@ -22,6 +22,7 @@ from heatsoak.core.problem.schedule import parse_schedule
 from heatsoak.core.results.probes import place
 from heatsoak.core.solve.linear import SOLVERS
 from heatsoak.core.solve.stepping import THETA_PRESETS
+from heatsoak.core.solve.stepping.adaptive import ADAPTIVE_STEPS
 from heatsoak.core.solve.stepping.base import MAX_STEPS
 
 #: Absolute zero [degC]: no temperature may be below it.
@@ -39,7 +40,7 @@ BOUNDARY_KEYS = {
     "convection": ("kind", "h", "ambient"),
     "insulated": ("kind",),
 }
-TIME_KEYS = ("end", "step", "theta", "mass", "solver", "start_steps")
+TIME_KEYS = ("end", "step", "tolerance", "theta", "mass", "solver", "start_steps")
 PROBE_KEYS = ("name", "at", "threshold")
 OUTPUT_KEYS = ("every",)
 SOLVER_NAMES = ("auto", *SOLVERS)
@@ -306,16 +307,31 @@ def _read_boundaries(ck: _Checker, data: dict, mesh) -> dict:
     return out
 
 
-def _read_time(ck: _Checker, data: dict):
-    sec = ck.table(data.get("time", {}), "time", TIME_KEYS, required=("end", "step"))
-    end = ck.number(sec, "time", "end", lo=0, open_lo=True)
-    step = ck.number(sec, "time", "step", lo=0, open_lo=True)
+def _read_step(ck: _Checker, sec: dict, end):
+    """(step, tolerance) of ``[time]``: a fixed step, or a tolerance [K] with the step as its upper
+    limit (default end / ADAPTIVE_STEPS); step None after reporting an issue."""
+    tolerance = ck.number(sec, "time", "tolerance", lo=0, open_lo=True)
+    if "tolerance" not in sec and "step" not in sec:
+        ck.add("time.step", "missing; give a step [s], or a tolerance [K] for adaptive steps")
+        return None, None
+    default = None if end is None else end / ADAPTIVE_STEPS
+    step = ck.number(sec, "time", "step", default, lo=0, open_lo=True)
     if end is not None and step is not None and step > end:
         ck.bad("time.step", sec["step"], f"the step must be <= time.end = {end:g} s")
+        step = None
     elif end is not None and step is not None and end / step > MAX_STEPS:
         ck.bad("time.step", sec["step"], f"time.end = {end:g} s would take {end / step:.3g} steps; "
                f"at most {MAX_STEPS:d} are allowed; use a larger step")
         step = None
+    if "tolerance" in sec and tolerance is None:
+        step = None
+    return step, tolerance
+
+
+def _read_time(ck: _Checker, data: dict):
+    sec = ck.table(data.get("time", {}), "time", TIME_KEYS, required=("end",))
+    end = ck.number(sec, "time", "end", lo=0, open_lo=True)
+    step, tolerance = _read_step(ck, sec, end)
     theta = sec.get("theta", 1.0)
     if isinstance(theta, str):
         if theta not in THETA_PRESETS:
@@ -332,9 +348,10 @@ def _read_time(ck: _Checker, data: dict):
     start = sec.get("start_steps")
     if start is not None and (not isinstance(start, int) or isinstance(start, bool) or start < 0):
         ck.bad("time.start_steps", start, "expected a whole number >= 0")
-    if None in (end, step, theta) or step > end or mass not in MASS_KINDS or solver not in SOLVER_NAMES:
+    if None in (end, step, theta) or mass not in MASS_KINDS or solver not in SOLVER_NAMES:
         return None
-    return TimeSettings(end=end, step=step, theta=theta, mass=mass, solver=solver, start_steps=start)
+    return TimeSettings(end=end, step=step, theta=theta, mass=mass, solver=solver, start_steps=start,
+                        tolerance=tolerance)
 
 
 def _probe_name_problem(name) -> str:

@@ -116,6 +116,12 @@ class TimeSettings:
         Linear solver name ("auto", "direct", "cg-jacobi", "cg-amg").
     output_times : tuple of float
         Extra times [s] the stepper must land on exactly.
+    tolerance : float, optional
+        Adaptive steps: largest estimated time-step error [K]; ``step`` is
+        then the largest step. None: fixed steps of ``step``.
+    error_estimate : bool
+        Also march a companion run at half the step to estimate the time
+        error of every step (always on with a tolerance).
     """
 
     end: float
@@ -125,6 +131,8 @@ class TimeSettings:
     start_steps: int | None = None
     solver: str = "auto"
     output_times: tuple = ()
+    tolerance: float | None = None
+    error_estimate: bool = False
 
 
 @dataclass

@@ -162,6 +162,20 @@ class Integrator:
         """Return the state at ``t_new`` from the state ``T`` at ``t``."""
         raise NotImplementedError
 
+    def _march(self, T: np.ndarray):
+        """Generator of (t_new, T_new), one pair per step from the state ``T`` at ``self.t``.
+
+        The default takes the fixed grid of :meth:`times`; an adaptive
+        integrator overrides it and picks each step as it goes.
+        """
+        for t_new in self.times():
+            T = self._advance(self.t, float(t_new), T)
+            yield float(t_new), T
+
+    def _steps_expected(self) -> int | None:
+        """Number of steps the run will take, if known in advance (for the time left)."""
+        return None
+
     def steps(self):
         """Generator of (t, T): first (0, T0), then one pair per step.
 
@@ -171,18 +185,23 @@ class Integrator:
         self.status = "running"
         start = _time.perf_counter()
         yield self.t, T.copy()
-        grid = self.times()
-        for t_new in grid:
-            if self._cancel:
-                self.status = "cancelled"
-                return
-            T = self._advance(self.t, float(t_new), T)
-            self.t = float(t_new)
+        expected = self._steps_expected()
+        if self._cancel:
+            self.status = "cancelled"
+            return
+        for t_new, T in self._march(T):
+            self.t = t_new
             self.step_count += 1
             if self.progress is not None:
                 el = _time.perf_counter() - start
                 frac = self.t / self.end
-                eta = el * (len(grid) - self.step_count) / self.step_count
+                if expected:
+                    eta = el * (expected - self.step_count) / self.step_count
+                else:
+                    eta = el * (1.0 - frac) / max(frac, 1e-300)
                 self.progress(Progress(self.step_count, self.t, self.end, frac, el, eta))
             yield self.t, T.copy()
+            if self._cancel and self.t < self.end:
+                self.status = "cancelled"
+                return
         self.status = "complete"

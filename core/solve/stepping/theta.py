@@ -31,7 +31,9 @@ from heatsoak.core.fem.assembly import Assembler
 from heatsoak.core.fem.operators import build_operators, left_value
 from heatsoak.core.problem.problem import Problem, TimeSettings
 from heatsoak.core.solve.linear import choose_solver, make_solver, stiffness_ratio
+from heatsoak.core.solve.stepping.adaptive import adaptive_march
 from heatsoak.core.solve.stepping.base import Integrator, default_start_steps, plan_steps
+from heatsoak.core.solve.stepping.error import StepDoubling
 
 #: Named values of theta.
 THETA_PRESETS = {"forward-euler": 0.0, "crank-nicolson": 0.5, "galerkin": 2.0 / 3.0, "backward-euler": 1.0}
@@ -107,6 +109,11 @@ class ThetaMethod(Integrator):
     ----------
     factorizations : int
         Number of system matrices factorised (or preconditioners built).
+    estimator : StepDoubling or None
+        The time-error estimate (``time.error_estimate`` or ``time.tolerance``);
+        its ``error`` is the estimated error of the last state yielded [K].
+    rejected : int
+        Adaptive steps taken again with a smaller size.
     """
 
     def __init__(self, problem: Problem, time: TimeSettings, progress=None, assembler: Assembler | None = None):
@@ -130,12 +137,18 @@ class ThetaMethod(Integrator):
         self._solvers = {}
         self.factorizations = 0
         self.dt_critical = None
+        self.tolerance = time.tolerance
         if theta < 0.5:
             self._check_stability()
         self.start_steps = default_start_steps(theta, time.start_steps)
         self._energy = dict(stored_J=0.0, boundary_in_J=0.0, source_in_J=0.0, dirichlet_in_J=0.0)
         self._rates = []  # (mid-step time [s], free-node increment / step [K/s]) of the last two steps
         self._jump_times = set(self.ops.jumps().tolist())
+        if self.tolerance is not None and not self.tolerance > 0:
+            raise InputError(f"time tolerance must be positive, got {self.tolerance}")
+        wanted = time.error_estimate or self.tolerance is not None
+        self.estimator = StepDoubling(self) if wanted else None
+        self.rejected = 0
 
     # -- setup -------------------------------------------------------------
     def _choose_solver(self):
@@ -175,7 +188,7 @@ class ThetaMethod(Integrator):
     def _check_stability(self):
         lam = lambda_max(self._Kff, self._Mff)
         self.dt_critical = np.inf if lam <= 0 else 2.0 / ((1.0 - 2.0 * self.theta) * lam)
-        if self.settings.step > self.dt_critical * (1 + 1e-9):
+        if self.tolerance is None and self.settings.step > self.dt_critical * (1 + 1e-9):
             raise StabilityError(
                 f"time step {self.settings.step:g} s is above the stability limit {self.dt_critical:.4g} s of "
                 f"theta = {self.theta:g} on this mesh (largest eigenvalue {lam:.4g} 1/s); use step <= "
@@ -187,7 +200,31 @@ class ThetaMethod(Integrator):
         T[self.ops.fixed] = self.ops.fixed_values(0.0)
         self._T0 = T.copy()
         self._rates = []
+        if self.estimator is not None:
+            self.estimator.start(T)
         return T
+
+    def snapshot(self):
+        """What a step changes besides the state (energy balance, warm-start rates), to undo it."""
+        return dict(self._energy), list(self._rates)
+
+    def restore(self, saved) -> None:
+        """Undo the steps after :meth:`snapshot` returned ``saved``."""
+        self._energy, self._rates = dict(saved[0]), list(saved[1])
+
+    def _march(self, T: np.ndarray):
+        if self.tolerance is None:
+            yield from super()._march(T)
+            return
+        dt_max = self.settings.step
+        if self.dt_critical is not None:
+            dt_max = min(dt_max, self.dt_critical)
+        marks = [*self.ops.breakpoints(), *self.settings.output_times]
+        restarts = {j for j in self._jump_times if 0 < j < self.end}
+        yield from adaptive_march(self, T, self.tolerance, dt_max, marks, restarts, self.start_steps)
+
+    def _steps_expected(self):
+        return None if self.tolerance is not None else len(self.times())
 
     def times(self) -> np.ndarray:
         marks = np.concatenate([self.ops.breakpoints(), np.asarray(self.settings.output_times, dtype=float)])
@@ -214,10 +251,18 @@ class ThetaMethod(Integrator):
         return s
 
     # -- one step ------------------------------------------------------------
-    def _advance(self, t: float, t_new: float, T: np.ndarray) -> np.ndarray:
+    def _theta_for(self, t_new: float) -> float:
+        """theta of the fixed-grid step ending at ``t_new`` (1 for the damped start)."""
+        return 1.0 if t_new in self._damped else self.theta
+
+    def _step(self, t: float, t_new: float, T: np.ndarray, theta: float, x0=None):
+        """One theta step of the state ``T`` at ``t`` to ``t_new``, nothing recorded.
+
+        Returns (T_new (n_nodes,) before any jump at ``t_new``, free-node
+        increment, theta-weighted load coefficients).
+        """
         ops, f, p = self.ops, self.ops.free, self.ops.fixed
         dt = t_new - t
-        theta = 1.0 if t_new in self._damped else self.theta
         # values inside the step: at t_new the limit from the left, so a jump at t_new acts after it
         Tp0, Tp1 = T[p], ops.fixed_values(t_new, start=t)
         coef = self._load_coefficients(t, t_new, theta)
@@ -231,25 +276,62 @@ class ThetaMethod(Integrator):
             if self._Mfp is not None:
                 b -= self._Mfp @ ((Tp1 - Tp0) / dt)
         solver = self._solver(dt, theta)
-        if not solver.iterative:
-            dTf = solver.solve(b)
-        else:
-            if t in self._jump_times:  # rates before a jump say nothing of its slope after it
-                self._rates = self._rates[-1:]
-            dTf = solver.solve(b, x0=warm_start(self._rates, t, dt))
-            self._rates = [*self._rates[-1:], (t + 0.5 * dt, dTf / dt)]
+        dTf = solver.solve(b, x0=x0) if solver.iterative else solver.solve(b)
         T_new = T.copy()
         T_new[f] = Tf + dTf
         T_new[p] = Tp1
+        return T_new, dTf, coef
+
+    def _jump(self, t_new: float, T_new: np.ndarray) -> float:
+        """Apply, in place, the jumps of prescribed temperatures at ``t_new``; the heat they take [J]."""
+        p = self.ops.fixed
+        jump = self.ops.fixed_values(t_new) - T_new[p]
+        if not np.any(jump != 0.0):
+            return 0.0
+        T_new[p] += jump
+        return float(self.ops.mass_apply(np.bincount(p, weights=jump, minlength=T_new.shape[0])).sum())
+
+    def bare_step(self, t: float, t_new: float, T: np.ndarray, theta: float) -> np.ndarray:
+        """The state at ``t_new`` from ``T`` at ``t`` by one theta step, jumps at ``t_new`` included;
+        nothing is recorded (for error estimates)."""
+        T_new = self._step(t, t_new, T, theta)[0]
+        self._jump(t_new, T_new)
+        return T_new
+
+    def propagate(self, dt: float, theta: float, E: np.ndarray) -> np.ndarray:
+        """A perturbation ``E`` (n_nodes,) [K] carried through one homogeneous theta step of size ``dt``:
+        (M/dt + theta K)^-1 (M/dt - (1 - theta) K) E on the free nodes, zero on prescribed ones."""
+        f = self.ops.free
+        out = np.zeros_like(E)
+        out[f] = E[f] + self._solver(dt, theta).solve(-(self._Kff @ E[f]))
+        return out
+
+    def _attempt(self, t: float, t_new: float, T: np.ndarray, theta: float, local: bool = False) -> np.ndarray:
+        """One recorded step (energy balance, warm start, error estimate left pending)."""
+        dt = t_new - t
+        x0 = None
+        iterative = self._solver(dt, theta).iterative
+        if iterative:
+            if t in self._jump_times:  # rates before a jump say nothing of its slope after it
+                self._rates = self._rates[-1:]
+            x0 = warm_start(self._rates, t, dt)
+        T_new, dTf, coef = self._step(t, t_new, T, theta, x0)
+        if iterative:
+            self._rates = [*self._rates[-1:], (t + 0.5 * dt, dTf / dt)]
         self._account(T, T_new, dt, theta, coef)
-        jump = ops.fixed_values(t_new) - Tp1
-        if np.any(jump != 0.0):
-            # a prescribed temperature that jumps at t_new does so instantly: the heat it takes
-            # is stored at once and counted as entering through those nodes
-            T_new[p] += jump
-            dE = ops.mass_apply(np.bincount(p, weights=jump, minlength=T.shape[0])).sum()
-            self._energy["stored_J"] += dE
-            self._energy["dirichlet_in_J"] += dE
+        # a prescribed temperature that jumps at t_new does so instantly: the heat it takes
+        # is stored at once and counted as entering through those nodes
+        dE = self._jump(t_new, T_new)
+        self._energy["stored_J"] += dE
+        self._energy["dirichlet_in_J"] += dE
+        if self.estimator is not None:
+            self.estimator.step(t, t_new, T_new, theta, local=local)
+        return T_new
+
+    def _advance(self, t: float, t_new: float, T: np.ndarray) -> np.ndarray:
+        T_new = self._attempt(t, t_new, T, self._theta_for(t_new))
+        if self.estimator is not None:
+            self.estimator.accept()
         return T_new
 
     def _account(self, T0, T1, dt, theta, coef):
@@ -300,5 +382,7 @@ class ThetaMethod(Integrator):
             mass=self.settings.mass,
             start_steps=self.start_steps,
             dt_critical=self.dt_critical,
+            tolerance=self.tolerance,
+            rejected_steps=self.rejected,
             warnings=list(self.ops.warnings),
         )
