@@ -29,13 +29,21 @@ from functools import cached_property
 import numpy as np
 import scipy.sparse as sp
 from heatsoak.core.fem.pattern import Pattern, build_pattern, element_entries
-from heatsoak.core.mesh.geometry import face_jacobians, isoparametric
+from heatsoak.core.mesh.geometry import curved_cells, curved_faces, face_jacobians, isoparametric
 from heatsoak.core.mesh.mesh import Mesh
 
 __all__ = ["BLOCK", "Assembler", "Pattern", "build_pattern"]
 
 #: Cells per block of element-matrix computation.
 BLOCK = 16384
+
+#: Quadrature degree on curved quadratic cells and faces, whose integrands are rational
+#: (stiffness) or polynomials of degree up to 7 (mass); straight ones keep the rules exact
+#: for them (2 for stiffness, 4 for mass and loads). Checked against scikit-fem's highest
+#: rule in tests/test_assembly_curved.py.
+CURVED_DEGREE = 8
+#: Curved cells per block at that degree (125 points each).
+CURVED_BLOCK = 1024
 
 #: Consistent mass matrix of a linear tetrahedron divided by its volume: (1 + delta_ij) / 20.
 _P1_MASS = (np.ones((4, 4)) + np.eye(4)) / 20.0
@@ -193,6 +201,38 @@ class Assembler:
         return isoparametric(self.mesh.points, self.mesh.cells[start:stop], degree)
 
     @cached_property
+    def _curved(self) -> np.ndarray:
+        """Sorted indices of the curved quadratic cells."""
+        return np.flatnonzero(curved_cells(self.mesh.points, self.mesh.cells))
+
+    def _p2_cells(self, degree: int, s: int, e: int, local) -> np.ndarray:
+        """Per-cell arrays ``local(cell indices, values, grads, weights)`` of quadratic cells s:e,
+        with the degree-``degree`` rule on straight cells and :data:`CURVED_DEGREE` on curved ones."""
+        out = local(np.arange(s, e), *self._p2(degree, s, e))
+        c = self._curved
+        curved = c[np.searchsorted(c, s) : np.searchsorted(c, e)]
+        for k in range(0, len(curved), CURVED_BLOCK):
+            idx = curved[k : k + CURVED_BLOCK]
+            out[idx - s] = local(idx, *isoparametric(self.mesh.points, self.mesh.cells[idx], max(degree, CURVED_DEGREE)))
+        return out
+
+    @cached_property
+    def _curved_faces(self) -> np.ndarray:
+        return curved_faces(self.mesh.points, self.mesh.faces)
+
+    def _p2_faces(self, local) -> np.ndarray:
+        """Per-face arrays ``local(face indices, values, weights)`` of 6-node faces, degree 4 on
+        flat faces and :data:`CURVED_DEGREE` on curved ones (their area element is not polynomial)."""
+        f = self.mesh.faces
+        v, w, _ = face_jacobians(self.mesh.points, f, 4)
+        out = local(np.arange(len(f)), v, w)
+        idx = np.flatnonzero(self._curved_faces)
+        if len(idx):
+            v, w, _ = face_jacobians(self.mesh.points, f[idx], CURVED_DEGREE)
+            out[idx] = local(idx, v, w)
+        return out
+
+    @cached_property
     def _face_pos(self) -> np.ndarray:
         f = self.mesh.faces
         nf, nb = f.shape
@@ -227,10 +267,12 @@ class Assembler:
             det, area = p1_area_vectors(self._coords, self.mesh.cells[s:e])
             k = kap[s:e] if tensor else kap[s:e, None, None] * np.eye(3)
             return np.einsum("ikb,bkl,jlb->bij", area, k, area) / (6.0 * np.abs(det))[:, None, None]
-        _, g, w = self._p2(2, s, e)
-        if tensor:
-            return np.einsum("eqik,ekl,eqjl,eq->eij", g, kap[s:e], g, w)
-        return np.einsum("eqik,eqjk,eq->eij", g, g, w) * kap[s:e, None, None]
+        def local(idx, _, g, w):
+            if tensor:
+                return np.einsum("eqik,ekl,eqjl,eq->eij", g, kap[idx], g, w)
+            return np.einsum("eqik,eqjk,eq->eij", g, g, w) * kap[idx, None, None]
+
+        return self._p2_cells(2, s, e, local)
 
     def _assemble_blocks(self, block) -> sp.csr_matrix:
         """Sum the symmetric element matrices ``block(s, e)`` (e - s, nb, nb) of all cells."""
@@ -250,8 +292,8 @@ class Assembler:
             return (self._volumes[start:stop] * c)[:, None, None] * _P1_MASS
         out = np.empty((stop - start, 10, 10))
         for s, e in self._blocks(start, stop):
-            v, _, w = self._p2(4, s, e)
-            out[s - start : e - start] = np.einsum("qi,qj,eq->eij", v, v, w) * c[s - start : e - start, None, None]
+            out[s - start : e - start] = self._p2_cells(
+                4, s, e, lambda idx, v, _, w: np.einsum("qi,qj,eq->eij", v, v, w) * c[idx - start, None, None])
         return out
 
     def mass(self, rhoc) -> sp.csr_matrix:
@@ -287,8 +329,7 @@ class Assembler:
             area = 0.5 * np.linalg.norm(np.cross(p[:, 1] - p[:, 0], p[:, 2] - p[:, 0]), axis=1)
             local = (np.ones((3, 3)) + np.eye(3)) / 12.0
             return (area * coef)[:, None, None] * local
-        v, w, _ = face_jacobians(self.mesh.points, f, 4)
-        return np.einsum("qi,qj,fq->fij", v, v, w) * coef[:, None, None]
+        return self._p2_faces(lambda idx, v, w: np.einsum("qi,qj,fq->fij", v, v, w) * coef[idx, None, None])
 
     def boundary_mass(self, h) -> sp.csr_matrix:
         """Convection matrix H [W/K] on this mesh's pattern.
@@ -318,8 +359,7 @@ class Assembler:
             area = 0.5 * np.linalg.norm(np.cross(p[:, 1] - p[:, 0], p[:, 2] - p[:, 0]), axis=1)
             loc = np.repeat((area * q / 3.0)[:, None], 3, axis=1)
         else:
-            v, w, _ = face_jacobians(self.mesh.points, f, 4)
-            loc = np.einsum("qi,fq->fi", v, w) * q[:, None]
+            loc = self._p2_faces(lambda idx, v, w: np.einsum("qi,fq->fi", v, w) * q[idx, None])
         return np.bincount(f.ravel(), weights=loc.ravel(), minlength=self.mesh.n_nodes)
 
     def source_load(self, f) -> np.ndarray:
@@ -331,6 +371,5 @@ class Assembler:
         else:
             loc = np.empty((ne, 10))
             for s, e in self._blocks():
-                v, _, w = self._p2(4, s, e)
-                loc[s:e] = np.einsum("qi,eq->ei", v, w) * c[s:e, None]
+                loc[s:e] = self._p2_cells(4, s, e, lambda idx, v, _, w: np.einsum("qi,eq->ei", v, w) * c[idx, None])
         return np.bincount(self.mesh.cells.ravel(), weights=loc.ravel(), minlength=self.mesh.n_nodes)

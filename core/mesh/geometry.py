@@ -1,14 +1,23 @@
 """Element geometry: Jacobians, volumes, areas, normals, for P1 and P2 cells.
 
 Quadratic (tetra10) cells are isoparametric: their mid-edge nodes may lie off
-the straight edges, and all geometric quantities are integrated with
-quadrature exact for straight-sided cells.
+the straight edges. Volumes are exact on any of them (det J is a cubic); the
+assembly integrates curved cells and faces (:func:`curved_cells`,
+:func:`curved_faces`) with a higher rule than straight ones.
 """
 
 from __future__ import annotations
 
 import numpy as np
-from heatsoak.core.mesh.shape import tet_basis, tet_quadrature, tri_basis, tri_quadrature
+from heatsoak.core.mesh.mesh import TET_EDGES
+from heatsoak.core.mesh.shape import TRI_EDGES, tet_basis, tet_quadrature, tri_basis, tri_quadrature
+
+#: A mid-edge node farther than this from its straight edge's midpoint, per edge length,
+#: makes its cell or face curved (round-off in written coordinates stays far below it).
+STRAIGHT = 1e-9
+
+#: Degree of the rule whose points sample det J when a curved cell is checked.
+SAMPLE_DEGREE = 8
 
 
 def p1_gradients(points: np.ndarray, cells: np.ndarray):
@@ -93,3 +102,49 @@ def face_areas(points: np.ndarray, faces: np.ndarray) -> np.ndarray:
         p = points[faces]
         return 0.5 * np.linalg.norm(np.cross(p[:, 1] - p[:, 0], p[:, 2] - p[:, 0]), axis=1)
     return face_jacobians(points, faces, 4)[1].sum(axis=1)
+
+
+def _mid_offsets(points: np.ndarray, cells: np.ndarray, edges: np.ndarray):
+    """Distances (n, n_edges) of mid-edge nodes from their straight edges' midpoints, and edge lengths."""
+    a, b = points[cells[:, edges[:, 0]]], points[cells[:, edges[:, 1]]]
+    offset = np.linalg.norm(points[cells[:, cells.shape[1] - len(edges) :]] - 0.5 * (a + b), axis=2)
+    return offset, np.linalg.norm(b - a, axis=2)
+
+
+def curved_cells(points: np.ndarray, cells: np.ndarray) -> np.ndarray:
+    """(n_cells,) bool: quadratic cells with a mid-edge node off its straight edge (all False for P1)."""
+    if cells.shape[1] == 4:
+        return np.zeros(len(cells), dtype=bool)
+    offset, length = _mid_offsets(points, cells, TET_EDGES)
+    return (offset > STRAIGHT * length).any(axis=1)
+
+
+def curved_faces(points: np.ndarray, faces: np.ndarray) -> np.ndarray:
+    """(n_faces,) bool: 6-node faces with a mid-edge node off its straight edge (all False for 3-node)."""
+    if faces.shape[1] == 3:
+        return np.zeros(len(faces), dtype=bool)
+    offset, length = _mid_offsets(points, faces, TRI_EDGES)
+    return (offset > STRAIGHT * length).any(axis=1)
+
+
+def sampled_jacobians(points: np.ndarray, cells: np.ndarray, block: int = 2048):
+    """Smallest det J of quadratic cells over sample points (the ten nodes and the points of a
+    degree-:data:`SAMPLE_DEGREE` rule), relative to det J of the straight cell on the vertices.
+
+    Returns
+    -------
+    ratio : (n_cells,) min det J / det J_straight; 1 for straight cells, <= 0 where the cell folds
+    where : (n_cells, 3) reference coordinates of the sample point giving it
+    """
+    nodes = np.vstack([np.eye(4)[:, 1:], 0.5 * (np.eye(4)[TET_EDGES[:, 0], 1:] + np.eye(4)[TET_EDGES[:, 1], 1:])])
+    xi = np.vstack([nodes, tet_quadrature(SAMPLE_DEGREE)[0]])
+    _, dref = tet_basis(2, xi)
+    ratio, where = np.empty(len(cells)), np.empty((len(cells), 3))
+    for s in range(0, len(cells), block):
+        x = points[cells[s : s + block]]
+        det = np.linalg.det(np.einsum("ebi,qbj->eqij", x, dref))
+        straight = np.linalg.det(np.swapaxes(x[:, 1:4] - x[:, :1], 1, 2))
+        rel = det / straight[:, None]
+        k = np.argmin(rel, axis=1)
+        ratio[s : s + block], where[s : s + block] = rel[np.arange(len(k)), k], xi[k]
+    return ratio, where

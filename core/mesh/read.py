@@ -15,6 +15,7 @@ from pathlib import Path
 import numpy as np
 from heatsoak.core.errors import InputError, MeshError
 from heatsoak.core.mesh.files import read_raw
+from heatsoak.core.mesh.geometry import curved_cells, sampled_jacobians
 from heatsoak.core.mesh.mesh import TET_EDGES, Mesh
 from heatsoak.core.mesh.surface import (
     feature_groups,
@@ -41,7 +42,8 @@ NEAR_ZERO_VOLUME = 1e-9
 #: Nodes closer than this, relative to the bounding-box diagonal, coincide.
 COINCIDENT = 1e-9
 
-#: Largest distance of a mid-edge node from its edge's midpoint, per edge length.
+#: Distance of a mid-edge node from its edge's midpoint, per edge length, above which it is
+#: checked for lying at another edge's midpoint (a different node order).
 MID_NODE_OFFSET = 0.25
 
 
@@ -158,7 +160,7 @@ def build_mesh(
     _check_solid(points, where)
     cells = _fix_volumes(points, cells, original, where, notes)
     if cells.shape[1] == 10:
-        _check_mid_nodes(points, cells, where)
+        _check_mid_nodes(points, cells, original, where)
     used, cell_region = np.unique(cell_region, return_inverse=True)
     region_names = tuple(region_names[i] for i in used)
 
@@ -322,15 +324,35 @@ def _fix_volumes(points, cells, original, where, notes):
     return cells
 
 
-def _check_mid_nodes(points, cells, where):
-    """MeshError when tetra10 mid-edge nodes are far from their edges (wrong node order)."""
+def _check_mid_nodes(points, cells, original, where):
+    """MeshError for tetra10 cells that cannot be used: mid-edge nodes that sit at another edge's
+    midpoint (a node order other than VTK's), or cells curved so far that the isoparametric map
+    folds (det J <= 0 at a sample point)."""
     a, b = points[cells[:, TET_EDGES[:, 0]]], points[cells[:, TET_EDGES[:, 1]]]
-    offset = np.linalg.norm(points[cells[:, 4:]] - 0.5 * (a + b), axis=2)
-    far = (offset > MID_NODE_OFFSET * np.linalg.norm(b - a, axis=2)).any(axis=1)
-    if far.any():
+    mid, length = 0.5 * (a + b), np.linalg.norm(b - a, axis=2)
+    offset = np.linalg.norm(points[cells[:, 4:]] - mid, axis=2)
+    far = np.flatnonzero((offset > MID_NODE_OFFSET * length).any(axis=1))
+    if len(far):
+        to_other = np.linalg.norm(points[cells[far, 4:]][:, :, None] - mid[far][:, None], axis=3)  # (n, node, edge)
+        swapped = (to_other.min(axis=2) < 0.01 * length[far]) & (to_other.argmin(axis=2) != np.arange(6))
+        if swapped.any(axis=1).any():
+            raise MeshError(
+                f"{swapped.any(axis=1).sum()} quadratic elements of {where} have mid-edge nodes at the midpoints "
+                "of other edges: the file's tetra10 node order is not the one heatsoak reads (VTK order)"
+            )
+    curved = np.flatnonzero(curved_cells(points, cells))
+    ratio, xi = sampled_jacobians(points, cells[curved])
+    folded = np.flatnonzero(ratio <= 0)
+    if len(folded):
+        j = folded[np.argmin(ratio[folded])]
+        i = curved[j]
+        worst = float((offset[i] / length[i]).max())
+        x, y, z = points[cells[i, :4]].mean(axis=0)
         raise MeshError(
-            f"{far.sum()} quadratic elements of {where} have mid-edge nodes far from their edges: "
-            "the file's tetra10 node order is not the one heatsoak reads (VTK order)"
+            f"{len(folded)} curved quadratic elements of {where} have a negative Jacobian at a sample point "
+            f"(the element folds over itself; worst: element {original[i]} near ({x:.4g}, {y:.4g}, {z:.4g}) m, at reference "
+            f"point ({', '.join(f'{v:.3g}' for v in xi[j])}), a mid-edge node {worst:.2g} of its edge's "
+            "length off the straight edge): move the mid-edge nodes nearer their edges, or refine there"
         )
 
 

@@ -8,8 +8,14 @@ L0 = 1 - x - y - z, L1 = x, L2 = y, L3 = z.
 
 from __future__ import annotations
 
+from functools import cache
+
 import numpy as np
 from heatsoak.core.mesh.mesh import TET_EDGES
+from scipy.special import roots_jacobi
+
+#: Highest degree of the collapsed (conical product) rules.
+MAX_DEGREE = 20
 
 #: Edges of a triangle in triangle6 mid-node order.
 TRI_EDGES = np.array([[0, 1], [1, 2], [2, 0]], dtype=np.int64)
@@ -88,7 +94,8 @@ def tet_quadrature(degree: int):
     Rules: centroid (degree 1), the symmetric 4-point rule (degree 2), and
     the 11-point rule of Keast (degree 4; Keast, Comput. Methods Appl. Mech.
     Eng. 55 (1986), from memory, with its weights checked by the unit tests
-    against exact monomial integrals).
+    against exact monomial integrals); above degree 4, up to :data:`MAX_DEGREE`,
+    the collapsed Gauss-Jacobi product rule (:func:`collapsed_rule`).
     """
     if degree <= 1:
         return np.array([[0.25, 0.25, 0.25]]), np.array([1.0 / 6.0])
@@ -104,7 +111,9 @@ def tet_quadrature(degree: int):
         pts += [[a2, a2, b2], [a2, b2, a2], [a2, b2, b2], [b2, a2, a2], [b2, a2, b2], [b2, b2, a2]]
         w = [-0.0131555555555556] + [0.0076222222222222] * 4 + [0.0248888888888889] * 6
         return np.array(pts), np.array(w)
-    raise ValueError(f"no tetrahedron quadrature of degree {degree}")
+    if degree <= MAX_DEGREE:
+        return collapsed_rule(3, degree)
+    raise ValueError(f"no tetrahedron quadrature of degree {degree}; the highest is {MAX_DEGREE}")
 
 
 def tri_quadrature(degree: int):
@@ -115,7 +124,8 @@ def tri_quadrature(degree: int):
     points : (nq, 2), weights : (nq,) summing to 1/2.
 
     Rules: centroid (1), 3-point interior (2), Strang-Fix 6-point (4,
-    from memory; checked by the unit tests against exact integrals).
+    from memory; checked by the unit tests against exact integrals); above
+    degree 4, up to :data:`MAX_DEGREE`, the collapsed Gauss-Jacobi rule.
     """
     if degree <= 1:
         return np.array([[1 / 3, 1 / 3]]), np.array([0.5])
@@ -126,4 +136,40 @@ def tri_quadrature(degree: int):
         pts = [[a, a], [1 - 2 * a, a], [a, 1 - 2 * a], [b, b], [1 - 2 * b, b], [b, 1 - 2 * b]]
         w = [0.223381589678011] * 3 + [0.109951743655322] * 3
         return np.array(pts), 0.5 * np.array(w)
-    raise ValueError(f"no triangle quadrature of degree {degree}")
+    if degree <= MAX_DEGREE:
+        return collapsed_rule(2, degree)
+    raise ValueError(f"no triangle quadrature of degree {degree}; the highest is {MAX_DEGREE}")
+
+
+@cache
+def _collapsed(dim: int, degree: int):
+    m = (degree + 2) // 2  # Gauss points per direction: exact to degree 2 m - 1 >= degree
+    axes = []
+    for k in range(dim):
+        a = dim - 1 - k  # weight (1 - u)^a of the collapse in direction k
+        t, w = roots_jacobi(m, a, 0)
+        axes.append(((t + 1.0) / 2.0, w / 2.0 ** (a + 1)))
+    grids = np.meshgrid(*[u for u, _ in axes], indexing="ij")
+    weight = np.prod(np.meshgrid(*[w for _, w in axes], indexing="ij"), axis=0).ravel()
+    u = [g.ravel() for g in grids]
+    pts = np.empty((len(weight), dim))
+    scale = np.ones(len(weight))
+    for k in range(dim):
+        pts[:, k] = scale * u[k]
+        scale = scale * (1.0 - u[k])
+    return pts, weight
+
+
+def collapsed_rule(dim: int, degree: int):
+    """Quadrature on the reference triangle (``dim`` 2) or tetrahedron (3) exact for
+    polynomials of ``degree``: Gauss-Jacobi points on the unit square or cube mapped by the
+    collapse x = u, y = (1 - u) v, z = (1 - u)(1 - v) w, whose Jacobian (1 - u)^2 (1 - v)
+    is taken into the Jacobi weights (Stroud's conical product rule; Karniadakis and
+    Sherwin, "Spectral/hp element methods", from memory). All points inside, weights positive.
+
+    Returns
+    -------
+    points : (m^dim, dim), weights : (m^dim,) summing to the cell's volume (1/2 or 1/6)
+    """
+    pts, w = _collapsed(dim, int(degree))
+    return pts.copy(), w.copy()
