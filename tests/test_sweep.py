@@ -149,3 +149,15 @@ def test_sweep_needs_something_to_vary(tmp_path, capsys):
     assert main(["sweep", str(case), "--vary", "time.step=0.5", "--out", str(tmp_path / "s")]) == 2
     assert "TOML array" in capsys.readouterr().err
     assert not Path(tmp_path / "s" / "sweep.csv").exists()
+
+
+@pytest.mark.slow
+def test_the_sweep_bench_times_the_same_variants_both_ways():
+    from heatsoak.core.app.sweep.bench import measure_sweep, sweep_rows
+
+    record = measure_sweep(workers=1, cubes=3, steps=5)
+    assert record["variants"] == 8 and record["statuses"] == ["complete"]
+    assert record["sequential_s"] > 0 and record["cluster_s"] > 0
+    assert record["ratio"] == pytest.approx(record["sequential_s"] / record["cluster_s"])
+    rows = sweep_rows(record, lambda s: f"{s:.3g} s")
+    assert rows[0][1] == "1 worker, local cluster" and rows[0][4].endswith("x faster")

@@ -25,6 +25,10 @@ for the direct solver), run_1000_s (the run of ``--steps`` steps, 1000 by defaul
 steps, fields_written, field_every_step_overhead, peak_rss_mb (peak of the
 whole run), assemble_peak_mb, energy_imbalance, run_solver, machine and
 compare (estimated run time per solver, null where left out).
+
+``--sweep`` adds rows timing 8 variants of a small cube case on a local
+cluster of 2 worker processes against the same variants one after another
+(:mod:`heatsoak.core.app.sweep.bench`), and a JSON record with size "sweep".
 """
 
 from __future__ import annotations
@@ -190,9 +194,18 @@ def cmd_bench(args) -> int:
         for r in _fresh_process(measure_size, name, args.steps):
             r.update(_fresh_process(whole_run, name, r["fourier"], args.steps, r["solver"]), machine=where)
             records.append(r)
-    print(format_table(table_rows(records)))
+    rows = table_rows(records)
+    if getattr(args, "sweep", False):
+        from heatsoak.core.app.sweep.bench import measure_sweep, sweep_rows
+
+        print("measuring sweep ...", file=sys.stderr, flush=True)
+        sweep = measure_sweep()
+        rows += sweep_rows(sweep, _t)
+    print(format_table(rows))
     for r in records:
         print(f"auto, {r['size']}, Fo {r['fourier']:g}: {r['solver']}: {r['solver_reason']}")
+    if getattr(args, "sweep", False):
+        records.append({"size": "sweep", **sweep, "machine": where})
     if args.json:
         Path(args.json).write_text(json.dumps(records, indent=2) + "\n", encoding="utf-8")
     return 0

@@ -74,6 +74,8 @@ def _bench_args(p):
     p.add_argument("--sizes", default="small,medium,large", help="comma list of small, medium, large")
     p.add_argument("--json", help="also write the numbers to this JSON file")
     p.add_argument("--steps", type=int, default=1000, help="steps of the long runs (default 1000)")
+    p.add_argument("--sweep", action="store_true", help="also time a sweep of 8 variants on 2 local worker processes "
+                   "against the same variants one after another (needs the cluster extra)")
 
 
 def _ui_args(p):
