@@ -32,6 +32,7 @@ def build_app(server, input_path=None, data_dir=None, work_dir=None, view_mode: 
     from heatsoak.plugin.panel import mount
     from heatsoak.plugin.pvtrame import new_plotter
     from heatsoak.plugin.results.layout import curves, player, run_bar
+    from heatsoak.plugin.session.layout import locked
     from trame.ui.vuetify3 import VAppLayout
     from trame.widgets import html
     from trame.widgets import vuetify3 as v3
@@ -51,11 +52,13 @@ def build_app(server, input_path=None, data_dir=None, work_dir=None, view_mode: 
             heat.runs_ui()
         with v3.VMain(classes="hs-main"):
             with html.Div(classes="d-flex flex-column", style="height: 100%"):
-                run_bar(heat)
+                with locked():
+                    run_bar(heat)
                 with html.Div(classes="hs-view flex-grow-1", style="position: relative; min-height: 340px"):
                     heat.view_ui()
-                player(heat)
-                curves(heat)
+                with locked():
+                    player(heat)
+                    curves(heat)
     heat.layout = layout
     if input_path:
         heat.open_path(Path(input_path))

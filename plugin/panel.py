@@ -23,9 +23,12 @@ from heatsoak.plugin.run import actions as run_actions
 from heatsoak.plugin.runs import layout as runs_layout
 from heatsoak.plugin.runs.store import RunStore
 from heatsoak.plugin.scene import Scene
-from heatsoak.plugin.startup import WorkFolder
+from heatsoak.plugin.session import actions as session_actions
+from heatsoak.plugin.session import layout as session_layout
 from heatsoak.plugin.setup import actions as setup_actions
 from heatsoak.plugin.setup import layout as setup_layout
+from heatsoak.plugin.startup import WorkFolder
+from trame.widgets import html
 
 #: Shown in the panel and the app bar: what the numbers are worth.
 DISCLAIMER = (
@@ -71,7 +74,8 @@ class HeatPanel:
         self.views = []
         self.state.hs_disclaimer = DISCLAIMER
         server.enable_module({"serve": {"__heatsoak": str(Path(__file__).parent)}, "styles": ["__heatsoak/style.css"]})
-        for module in (load_actions, setup_actions, run_actions, results_actions, export_actions, guard):
+        for module in (session_actions, load_actions, setup_actions, run_actions, results_actions, export_actions,
+                       guard):
             module.register(self)
 
     def open_path(self, path) -> bool:
@@ -104,22 +108,29 @@ class HeatPanel:
 
     # -------------------------------------------------------------- widgets
     def view_ui(self, **kwargs):
-        """The 3D view of the plotter, wired for clicks (call inside a layout)."""
+        """The 3D view of the plotter, wired for clicks (call inside a layout whose box is
+        ``position: relative``); a watching tab sees it under a cover that takes no clicks to the view."""
+        html.Div(v_if=session_layout.WATCHING, classes="hs-watch-cover", id="hs-watch-cover")
         view = view_for(self.plotter, self.view_mode, interactive_ratio=1, **self.view_events, **kwargs)
         self.attach_view(view)
         return view
 
     def setup_ui(self):
-        """Mesh, surfaces and conditions, materials, time, probes (for a drawer)."""
-        setup_layout.build(self)
+        """Who edits the workspace (and the take-over button of a watching tab), then mesh, surfaces
+        and conditions, materials, time, probes (for a drawer)."""
+        session_layout.banner(self)
+        with session_layout.locked():
+            setup_layout.build(self)
 
     def results_ui(self):
         """Run bar, player and curves (below the view)."""
-        results_layout.build(self)
+        with session_layout.locked():
+            results_layout.build(self)
 
     def runs_ui(self):
         """Runs kept, comparison and export (for a side drawer)."""
-        runs_layout.build(self)
+        with session_layout.locked():
+            runs_layout.build(self)
 
 
 def mount(server, plotter, **kwargs) -> HeatPanel:

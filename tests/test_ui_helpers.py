@@ -12,6 +12,7 @@ from heatsoak.core.problem.materials import LIBRARY, get_material
 from heatsoak.plugin import access
 from heatsoak.plugin.load import listing as files
 from heatsoak.plugin.runs import labels as rundiff
+from heatsoak.plugin.session.seats import Seats
 from heatsoak.plugin.setup import forms
 
 RAMP_CASE = {
@@ -191,3 +192,15 @@ def test_animation_encodes_every_frame(fmt, magic, tmp_path):
         (tmp_path / "a.gif").write_bytes(data)
         back = iio.imread(tmp_path / "a.gif", index=None)
         assert back.shape[0] == 6 and back[5].mean() > back[0].mean() + 100
+
+
+# ------------------------------------------------------------- workspace owner
+
+def test_seats_first_owns_others_watch_until_they_take_over():
+    seats = Seats()
+    assert seats.hello("a") == "tab 1" and seats.hello("b", "10.0.0.7") == "tab 2 from 10.0.0.7"
+    assert seats.may_edit("a") and not seats.may_edit("b") and not seats.may_edit(None)
+    assert not seats.take_over("stranger") and seats.owner == "a"
+    assert seats.take_over("b") and seats.may_edit("b") and not seats.may_edit("a") and seats.lost == "tab 1"
+    seats.closed("b")
+    assert seats.owner is None and seats.hello("c") == "tab 3" and seats.may_edit("c")

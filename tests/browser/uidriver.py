@@ -128,6 +128,7 @@ def browse(server):
         page = browser.new_page()
         page.goto(server.url)
         page.wait_for_selector("#hs-facts", timeout=30_000)
+        page.wait_for_function("() => trame.state.get('hs_me')", timeout=15_000)  # the tab owns the workspace
         yield page
         browser.close()
 
