@@ -14,13 +14,13 @@ def _halves(c):
     return (c[:, 0] > 0.02).astype(int), ("left", "right")
 
 
-def write_box_msh(path, shape=(4, 3, 2), order=1):
-    """A 40 x 30 x 20 mm box with regions "left"/"right" (split at x = 20 mm) and
-    surface groups xmin, xmax, ymin, ymax, zmin, zmax, as an MSH 2.2 file in mm.
+def write_box_msh(path, shape=(4, 3, 2), order=1, size=(0.04, 0.03, 0.02)):
+    """A 40 x 30 x 20 mm box (or ``size`` [m]) with regions "left"/"right" (split at x = 20 mm)
+    and surface groups xmin, xmax, ymin, ymax, zmin, zmax, as an MSH 2.2 file in mm.
 
     Returns the Mesh (in metres) that was written.
     """
-    mesh = box_mesh(shape, size=(0.04, 0.03, 0.02), order=order, regions=_halves)
+    mesh = box_mesh(shape, size=size, order=order, regions=_halves)
     ng = len(mesh.group_names)
     tags_f, tags_c = mesh.face_group + 1, mesh.cell_region + ng + 1
     field = {n: np.array([i + 1, 2]) for i, n in enumerate(mesh.group_names)}

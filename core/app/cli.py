@@ -19,6 +19,8 @@ COMMANDS = {
     "check": ("heatsoak.core.app.runner", "cmd_check", "validate a case file without running it"),
     "run": ("heatsoak.core.app.runner", "cmd_run", "run a case file headless and write result files"),
     "sweep": ("heatsoak.core.app.sweep.command", "cmd_sweep", "run many variants of a case on a dask cluster, one table"),
+    "whatif": ("heatsoak.core.app.whatif", "cmd_whatif",
+               "answer a changed case in milliseconds with its reduced model (files as `run` writes)"),
     "bench": ("heatsoak.core.app.bench", "cmd_bench", "measure assembly and solver speed on cube meshes"),
     "ui": ("heatsoak.plugin.app", "cmd_ui", "start the browser UI"),
 }
@@ -90,8 +92,25 @@ def _ui_args(p):
     p.add_argument("--server", action="store_true", help="do not open a browser")
 
 
+def _whatif_args(p):
+    p.add_argument("case", help="case file (TOML)")
+    p.add_argument("--set", action="append", metavar="KEY=VALUE",
+                   help="change the case: KEY a dotted path (boundary.bore.ramp.over), VALUE a TOML value; repeatable")
+    p.add_argument("--out", required=True, help="results folder")
+    p.add_argument("--quiet", action="store_true", help="print only the result lines")
+    p.add_argument("--field", action="store_true", help="also write the temperature field (rebuilt from the model)")
+    p.add_argument("--exact-time", action="store_true",
+                   help="integrate exactly in time (piecewise-linear schedules) instead of the case's theta steps")
+    p.add_argument("--cache", help="folder of saved reduced models (default .heatsoak-cache beside the case)")
+    p.add_argument("--rebuild", action="store_true", help="build the reduced model again even if a saved one fits")
+    p.add_argument("--find", metavar="KEY=LO:HI",
+                   help="search the number at KEY between LO and HI for the edge where --goal starts or stops holding")
+    p.add_argument("--goal", metavar="GOAL",
+                   help="what must hold: 'max(P) < X', 'min(P) > X', 'maxdiff(P, Q) < X' or 'reach(P, V) < TIME'")
+
+
 _ARGUMENTS = {"inspect": _inspect_args, "check": _check_args, "run": _run_args, "sweep": _sweep_args,
-              "bench": _bench_args, "ui": _ui_args}
+              "whatif": _whatif_args, "bench": _bench_args, "ui": _ui_args}
 
 
 def main(argv=None) -> int:

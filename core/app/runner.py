@@ -60,7 +60,7 @@ def _summary(case: Case, stepper, rec: Recorder, files: ResultFiles, status: str
         "element_order": case.mesh.order,
         "nodes": case.mesh.n_nodes,
         "cells": case.mesh.n_cells,
-        "field_steps_written": len(files.field.times),
+        "field_steps_written": 0 if files.field is None else len(files.field.times),
         "temperature": {
             "min": None if rec.minimum is None else rec.minimum.to_dict(),
             "max": None if rec.maximum is None else rec.maximum.to_dict(),

@@ -34,16 +34,8 @@ def as_schedule(value):
 def problem_schedules(problem: Problem) -> list:
     """Every schedule that drives ``problem``: prescribed temperatures, heat fluxes, ambient
     temperatures of convection and sources, as :func:`build_operators` applies them."""
-    out = []
-    for bc in problem.boundaries.values():
-        value = bc.ambient if bc.kind == "convection" else bc.value if bc.kind in ("temperature", "heat_flux") else None
-        if value is not None:
-            out.append(as_schedule(value))
-    for name in problem.mesh.region_names:
-        mat = problem.materials.get(name)
-        if mat is not None and mat.source is not None:
-            out.append(as_schedule(mat.source))
-    return out
+    loads, fixed = input_schedules(problem)
+    return [s for _, s in fixed + loads]
 
 
 @dataclass
@@ -189,6 +181,33 @@ def initial_field(problem: Problem) -> np.ndarray:
     if arr.shape != (mesh.n_nodes,):
         raise InputError(f"initial temperature field has shape {arr.shape}, expected ({mesh.n_nodes},)")
     return arr.copy()
+
+
+def input_schedules(problem: Problem):
+    """The schedules of a problem in the order :func:`build_operators` gives them.
+
+    Returns
+    -------
+    loads : list of (name, schedule)
+        One per load vector of :attr:`Operators.loads`, named by its case key
+        (``boundary.GROUP.value``, ``boundary.GROUP.ambient``, ``material.REGION.source``).
+    fixed : list of (name, schedule)
+        One per prescribed-temperature group (``boundary.GROUP.value``), in the
+        order of :attr:`Operators.fixed_schedules`.
+    """
+    loads, fixed = [], []
+    for name, bc in problem.boundaries.items():
+        if bc.kind == "temperature":
+            fixed.append((f"boundary.{name}.value", as_schedule(bc.value)))
+        elif bc.kind == "heat_flux":
+            loads.append((f"boundary.{name}.value", as_schedule(bc.value)))
+        elif bc.kind == "convection":
+            loads.append((f"boundary.{name}.ambient", as_schedule(bc.ambient)))
+    for name in problem.mesh.region_names:
+        mat = problem.materials.get(name)
+        if mat is not None and mat.source is not None:
+            loads.append((f"material.{name}.source", as_schedule(mat.source)))
+    return loads, fixed
 
 
 def build_operators(problem: Problem, mass: str = "consistent", assembler: Assembler | None = None) -> Operators:

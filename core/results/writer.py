@@ -151,9 +151,12 @@ class ResultFiles:
     out_dir : path
     mesh : Mesh
     probe_names : sequence of str
+    field : bool
+        Write the temperature field (``temperature.xdmf`` + ``.h5``); without it
+        ``field`` is None and the field files are not listed.
     """
 
-    def __init__(self, out_dir, mesh: Mesh, probe_names):
+    def __init__(self, out_dir, mesh: Mesh, probe_names, field: bool = True):
         self.out_dir = Path(out_dir)
         try:
             self.out_dir.mkdir(parents=True, exist_ok=True)
@@ -163,7 +166,7 @@ class ResultFiles:
         self.regions = tuple(mesh.region_names)
         self.probes_csv = CsvSeries(self.out_dir / "probes.csv", ["time", *probe_names])
         self.regions_csv = CsvSeries(self.out_dir / "regions.csv", ["time", "region", "mean", "min", "max"])
-        self.field = XdmfSeries(self.out_dir / f"{FIELD_NAME}.xdmf", mesh)
+        self.field = XdmfSeries(self.out_dir / f"{FIELD_NAME}.xdmf", mesh) if field else None
         self.summary_path = self.out_dir / "summary.json"
 
     def step(self, t: float, probe_values: np.ndarray, region_stats: np.ndarray) -> None:
@@ -175,12 +178,13 @@ class ResultFiles:
         """Close the series, add the engineering note and write summary.json; returns the summary."""
         self.close()
         summary = {**summary, "note": _NOTE}
-        summary.setdefault("files", ["probes.csv", "regions.csv", f"{FIELD_NAME}.xdmf", f"{FIELD_NAME}.h5",
-                                     "summary.json"])
+        fields = [f"{FIELD_NAME}.xdmf", f"{FIELD_NAME}.h5"] if self.field is not None else []
+        summary.setdefault("files", ["probes.csv", "regions.csv", *fields, "summary.json"])
         write_summary(self.summary_path, summary)
         return summary
 
     def close(self) -> None:
         self.probes_csv.close()
         self.regions_csv.close()
-        self.field.close()
+        if self.field is not None:
+            self.field.close()

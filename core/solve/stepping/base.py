@@ -117,15 +117,20 @@ def plan_steps(end: float, dt: float, marks=(), jumps=(), start_steps: int = 0):
     return np.unique(np.concatenate([damped, grid])), damped
 
 
-def planned_step_times(problem, time) -> np.ndarray:
-    """The step end times [s] a run of ``problem`` with ``time`` (TimeSettings) will take, found
-    from its schedules without assembling anything (for ``check``)."""
+def planned_steps(problem, time):
+    """(step end times [s], end times of the damped steps) a run of ``problem`` with ``time``
+    (TimeSettings) will take, found from its schedules without assembling anything."""
     scheds = problem_schedules(problem)
     marks = [np.asarray(s.breakpoints(), dtype=float) for s in scheds]
     marks.append(np.asarray(time.output_times, dtype=float))
     jumps = np.concatenate([np.zeros(0), *(jump_times(s) for s in scheds)])
     start = default_start_steps(float(time.theta), time.start_steps)
-    return plan_steps(time.end, time.step, np.concatenate(marks), jumps, start)[0]
+    return plan_steps(time.end, time.step, np.concatenate(marks), jumps, start)
+
+
+def planned_step_times(problem, time) -> np.ndarray:
+    """The step end times [s] a run of ``problem`` with ``time`` will take (for ``check``)."""
+    return planned_steps(problem, time)[0]
 
 
 class Integrator:
