@@ -52,6 +52,9 @@ def test_whatif_writes_the_run_files_and_matches_a_full_run(box, tmp_path):
     assert red["error_estimate"] >= np.abs(a - b).max() / 2
     assert abs(s["energy"]["stored_J"] - _summary(tmp_path / "r")["energy"]["stored_J"]) <= 1e-3 * abs(
         s["energy"]["stored_J"])
+    run_terr, terr = _summary(tmp_path / "r")["time_error"], s["time_error"]  # the run's step-doubling estimate
+    assert run_terr.keys() == terr.keys()
+    assert all(abs(terr[p] - run_terr[p]) <= 1e-3 * span for p in terr) and max(terr.values()) > 0
     assert not (tmp_path / "w" / "temperature.xdmf").exists()
     assert (tmp_path / "f" / "temperature.xdmf").exists()
 

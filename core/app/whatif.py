@@ -16,7 +16,7 @@ from pathlib import Path
 
 from heatsoak.core.app.runner import _probe_set, _report, _summary
 from heatsoak.core.case.overrides import load_case_with
-from heatsoak.core.results.reduced import energy_balance, run_answer
+from heatsoak.core.results.reduced import energy_balance, run_answer, time_errors
 from heatsoak.core.results.writer import ResultFiles
 from heatsoak.core.solve.reduced import build_reduced, load_model, save_model, stale_reasons
 
@@ -102,7 +102,10 @@ def whatif(case, out_dir, cache_dir=None, field: bool = False, exact_time: bool 
     energy = energy_balance(model, case.problem, case.time, ans)
     clock = {"setup": t1 - t0 - ans.answer_s, "stepping": ans.answer_s, "output": _time.perf_counter() - t1}
     clock["wall"] = _time.perf_counter() - t0
-    summary = _summary(case, _ReducedRun(case, model, ans, energy), rec, files, "complete", clock)
+    terr = time_errors(model, case.problem, case.time, ans, probes, case.output_every)
+    summary = _summary(case, _ReducedRun(case, model, ans, energy), rec, files, "complete", clock, terr)
+    if exact_time:
+        summary["time_error_method"] = "none: the answer is exact in time for piecewise-linear schedules"
     summary["reduced"] = {"basis": model.size, "error_estimate": ans.error_estimate, "build_s": build_s,
                           "answer_s": ans.answer_s, "reused": reused, "method": ans.method, "cache": str(path)}
     return files.finish(summary)

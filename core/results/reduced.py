@@ -14,7 +14,8 @@ from heatsoak.core.results.probes import ProbeSet
 from heatsoak.core.results.record import Extreme, first_crossing, node_integrals
 from heatsoak.core.solve.reduced import answer, output_rows, reconstruct
 
-__all__ = ["ReducedRecord", "answer_outputs", "probe_rows", "region_rows", "run_answer"]
+__all__ = ["ReducedRecord", "answer_outputs", "energy_balance", "probe_rows", "region_rows", "run_answer",
+           "time_errors"]
 
 #: Nodal values rebuilt at once when scanning for minima and maxima (bounds memory to ~160 MB).
 _BLOCK_VALUES = 20_000_000
@@ -140,3 +141,32 @@ def energy_balance(model, problem, time, ans) -> dict:
     scale = max(abs(e["stored_J"]), abs(inflow), float(rows[0].sum()), 1e-300)
     e["relative_imbalance"] = abs(e["imbalance_J"]) / scale
     return e
+
+
+def time_errors(model, problem, time, ans, probes, every: int):
+    """The run's time-step error estimate (:mod:`heatsoak.core.solve.stepping.error`) for a
+    reduced answer, as a :class:`~heatsoak.core.results.time_error.TimeErrorRecord`.
+
+    The companion answer takes two half steps over every step; E = 2 (y - u) (Richardson with
+    p = 1, as the run does) at the probes over all steps and over the nodes at the steps a run
+    writes (every ``every``-th and the last). An exact-in-time answer has no time-step error.
+    """
+    from heatsoak.core.results.time_error import TimeErrorRecord
+    from heatsoak.core.solve.reduced import half_step_coordinates
+    from heatsoak.core.solve.reduced.answer import Answer
+    from heatsoak.core.solve.stepping.error import richardson_factor
+
+    rec = TimeErrorRecord(probes)
+    if ans.method.startswith("exact"):
+        return rec
+    dz = richardson_factor(1) * (ans.z - half_step_coordinates(model, problem, time))
+    diff = Answer(ans.times, ans.outputs, dz, np.zeros_like(ans.groups), 0.0, ans.method, 0.0)
+    k = len(probes)
+    if k:
+        at = np.abs(output_rows(model, probe_rows(problem.mesh, probes)).Cz @ dz).max(axis=1)
+        rec.per_probe = {name: float(e) for name, e in zip(probes.names, at)}
+    written = sorted(set(range(0, ans.times.size, every)) | {ans.times.size - 1})
+    block = max(1, _BLOCK_VALUES // max(model.n_nodes, 1))
+    for s in range(0, len(written), block):
+        rec.field = max(rec.field, float(np.abs(reconstruct(model, diff, written[s:s + block])).max()))
+    return rec

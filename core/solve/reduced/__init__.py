@@ -17,14 +17,16 @@ Public API (used by ``heatsoak whatif`` and the sweeps):
 * :func:`output_rows(model, problem, rows)` -> :class:`Outputs` (small output matrices)
 * :func:`answer(model, problem, time, outputs, exact_time=False)` -> :class:`Answer`
 * :func:`reconstruct(model, answer, steps, nodes=None)` -> nodal temperatures
+* :func:`half_step_coordinates(model, problem, time)` -> the step-doubling companion (time error)
 * :func:`save_model(model, path)`, :func:`load_model(path)`
 
 May import: errors, mesh, problem, fem, solve.
 """
 
-from heatsoak.core.solve.reduced.answer import Answer, Outputs, answer, output_rows, reconstruct
+from heatsoak.core.solve.reduced.answer import Answer, Outputs, answer, half_step_coordinates, output_rows, reconstruct
 from heatsoak.core.solve.reduced.fingerprint import fingerprint, stale_reasons
 from heatsoak.core.solve.reduced.model import ReducedModel, build_reduced, load_model, save_model
 
-__all__ = ["Answer", "Outputs", "ReducedModel", "answer", "build_reduced", "fingerprint", "load_model",
+__all__ = ["Answer", "Outputs", "ReducedModel", "answer", "build_reduced", "fingerprint", "half_step_coordinates",
+           "load_model",
            "output_rows", "reconstruct", "save_model", "stale_reasons"]

@@ -15,7 +15,7 @@ from heatsoak.core.solve.reduced.inputs import initial_coefficients, schedules, 
 from heatsoak.core.solve.reduced.integrate import exact_steps, theta_steps
 from heatsoak.core.solve.reduced.model import ReducedModel, time_grid
 
-__all__ = ["Answer", "Outputs", "answer", "output_rows", "reconstruct"]
+__all__ = ["Answer", "Outputs", "answer", "half_step_coordinates", "output_rows", "reconstruct"]
 
 #: Relative round-off level of an answer: the error estimate never reports less than this times the span.
 ROUNDOFF = 1e-9
@@ -131,3 +131,15 @@ def reconstruct(model: ReducedModel, ans: Answer, steps=None, nodes=None) -> np.
     p = ~f
     out[:, p] = ans.groups[model.fixed_which[fixed_pos[nodes[p]]]][:, steps].T
     return out
+
+
+def half_step_coordinates(model: ReducedModel, problem: Problem, time: TimeSettings) -> np.ndarray:
+    """Modal coordinates (r, n_times) of a companion answer that takes two half steps (same theta)
+    over every step of the run's grid, at the run's times: the step-doubling partner of
+    :func:`answer` for the run's time-error estimate."""
+    loads, groups = schedules(problem, model.load_names, model.group_names)
+    times, thetas = time_grid(problem, time)
+    fine = np.empty(2 * times.size - 1)
+    fine[0::2], fine[1::2] = times, 0.5 * (times[:-1] + times[1:])
+    z0 = model.system.G0 @ initial_coefficients(problem)
+    return theta_steps(model.system, loads, groups, fine, np.repeat(thetas, 2), z0)[:, 0::2]
