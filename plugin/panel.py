@@ -19,6 +19,7 @@ from heatsoak.plugin.load import guard
 from heatsoak.plugin.pvtrame import view_for
 from heatsoak.plugin.results import actions as results_actions
 from heatsoak.plugin.results import layout as results_layout
+from heatsoak.plugin.results import time_error as results_time_error
 from heatsoak.plugin.run import actions as run_actions
 from heatsoak.plugin.runs import layout as runs_layout
 from heatsoak.plugin.runs.store import RunStore
@@ -74,7 +75,8 @@ class HeatPanel:
         self.views = []
         self.state.hs_disclaimer = DISCLAIMER
         server.enable_module({"serve": {"__heatsoak": str(Path(__file__).parent)}, "styles": ["__heatsoak/style.css"]})
-        for module in (session_actions, load_actions, setup_actions, run_actions, results_actions, export_actions,
+        for module in (session_actions, load_actions, setup_actions, run_actions, results_actions,
+                       results_time_error, export_actions,
                        guard):
             module.register(self)
 

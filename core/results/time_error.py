@@ -42,27 +42,38 @@ class TimeErrorRecord:
         return max(self.per_probe.values(), default=0.0)
 
 
+def threshold_margin(values, threshold: float) -> float | None:
+    """How far a probe history went past its threshold, or stayed short of it [K].
+
+    From a start below the threshold (heating) it is |max - threshold|, from
+    above (cooling) |min - threshold|; None when it starts on the threshold.
+    A time-step error larger than this could turn "reached" into "not
+    reached" or back.
+    """
+    v = np.asarray(values, dtype=float)
+    if v.size == 0 or v[0] == threshold:
+        return None
+    extreme = v.max() if v[0] < threshold else v.min()
+    return float(abs(extreme - threshold))
+
+
 def margin_warnings(per_probe: dict, thresholds: dict, history: dict) -> list:
-    """Warnings for probes whose time-step error is larger than their distance to their threshold.
+    """Warnings for probes whose time-step error is larger than their margin to their threshold.
 
     Parameters
     ----------
     per_probe : dict name -> estimated error [K]
     thresholds : dict name -> threshold [degC] or None
     history : dict name -> (n,) probe temperatures [degC]
-
-    A crossing found (or missed) by a margin smaller than the time-step error
-    is not decided by the run: the smallest distance of the curve to the
-    threshold is compared with the estimate.
     """
     out = []
     for name, err in per_probe.items():
         thr, values = thresholds.get(name), history.get(name)
-        if thr is None or values is None or len(values) == 0:
-            continue
-        margin = float(np.min(np.abs(np.asarray(values, dtype=float) - thr)))
-        if err > margin:
-            out.append(f"probe {name}: time-step error at most {err:.3g} K is larger than the closest approach "
-                       f"{margin:.3g} K to its threshold {thr:g} degC; the crossing is uncertain: take a smaller "
-                       f"step or set time.tolerance")
+        margin = None if thr is None or values is None else threshold_margin(values, thr)
+        if margin is not None and err > margin:
+            v = np.asarray(values, dtype=float)
+            reached = v.max() >= thr if v[0] < thr else v.min() <= thr
+            verdict = "reached" if reached else "not reached"
+            out.append(f"probe {name}: the time-step error (at most {err:.3g} K) is larger than the {margin:.3g} K "
+                       f"by which its threshold {thr:g} degC is {verdict}; take a smaller step or set time.tolerance")
     return out

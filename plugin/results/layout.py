@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from heatsoak.plugin.results import time_error
 from trame.widgets import html
 from trame.widgets import vuetify3 as v3
 
@@ -77,6 +78,7 @@ def curves(panel) -> None:
     with html.Div(classes="d-flex ga-2 px-3 pb-2 hs-curves", v_if="hs_runs.length", id="hs-curves"):
         with v3.VCard(variant="outlined", classes="pa-2 flex-grow-1 hs-card"):
             html.Div("Probes", classes="text-subtitle-2")
+            time_error.widget()
             html.Div(v_html=("hs_probe_svg",), classes="hs-plot", id="hs-probe-plot")
             with v3.VTable(density="compact", v_if="hs_probe_table.length", id="hs-probe-values"):
                 with html.Thead(), html.Tr():
