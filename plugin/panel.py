@@ -76,8 +76,7 @@ class HeatPanel:
         self.state.hs_disclaimer = DISCLAIMER
         server.enable_module({"serve": {"__heatsoak": str(Path(__file__).parent)}, "styles": ["__heatsoak/style.css"]})
         for module in (session_actions, load_actions, setup_actions, run_actions, results_actions,
-                       results_time_error, export_actions,
-                       guard):
+                       results_time_error, export_actions, guard):
             module.register(self)
 
     def open_path(self, path) -> bool:
