@@ -113,6 +113,8 @@ def test_ctrl_c_stops_the_sweep_command_with_the_table_written(tmp_path, cluster
     cmd = [sys.executable, "-m", "heatsoak.core.app.cli", "sweep", str(case), "--vary",
            "boundary.xmax.h=[5, 10, 20, 40, 80, 160]", "--out", str(out), "--scheduler", cluster[0]]
     proc = subprocess.Popen(cmd, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=os.environ)
+    first = proc.stdout.readline()
+    assert first.startswith("running 6 variant(s) on 2 worker(s)"), first + proc.stderr.read()
     first = proc.stdout.readline()  # the first finished variant
     assert first.startswith("[1/6]"), first + proc.stderr.read()
     proc.send_signal(signal.SIGINT)
@@ -140,6 +142,24 @@ def test_a_worker_killed_mid_sweep_gets_its_variant_run_again(tmp_path, cluster)
     assert ran_again.worker.rsplit(":", 1)[1] != str(pids[victim])
     assert result.table.is_file()
     client.wait_for_workers(2, timeout=60)  # the nanny restarts the killed worker for the next tests
+
+
+def test_the_local_cluster_listens_on_loopback_only_and_serves_no_dashboard(cluster):
+    import urllib.error
+    import urllib.request
+
+    psutil = pytest.importorskip("psutil")
+    address, client = cluster
+    pids = [*worker_pids(client).values(), os.getpid()]
+    listening = {(c.laddr.ip, c.laddr.port) for pid in pids for c in psutil.Process(pid).net_connections()
+                 if c.status == psutil.CONN_LISTEN}
+    assert listening and {ip for ip, _ in listening} == {"127.0.0.1"}
+    assert address.startswith("tcp://127.0.0.1:")
+    http = client.scheduler_info().get("services", {}).get("dashboard")
+    if http:  # the scheduler's health endpoint answers; the dashboard pages do not exist
+        assert urllib.request.urlopen(f"http://127.0.0.1:{http}/health", timeout=5).read() == b"ok"
+        with pytest.raises(urllib.error.HTTPError):
+            urllib.request.urlopen(f"http://127.0.0.1:{http}/status", timeout=5)
 
 
 def test_sweep_needs_something_to_vary(tmp_path, capsys):

@@ -104,3 +104,14 @@ def test_an_unreachable_scheduler_is_a_clear_error():
     with pytest.raises(EngineError, match=f"--scheduler {address}: cannot reach a dask scheduler"):
         with open_engine(scheduler=address, timeout=1.0):
             pass
+
+
+def test_a_scheduler_without_workers_is_a_clear_error():
+    distributed = pytest.importorskip("distributed")
+    from heatsoak.core.app.sweep.engine import EngineError, open_engine
+
+    with distributed.LocalCluster(n_workers=0, host="127.0.0.1", dashboard_address=None,
+                                  scheduler_kwargs={"dashboard": False, "dashboard_address": "127.0.0.1:0"}) as empty:
+        with pytest.raises(EngineError, match="the scheduler has no workers .* dask worker tcp://127.0.0.1:"):
+            with open_engine(scheduler=empty.scheduler_address, timeout=1.0):
+                pass

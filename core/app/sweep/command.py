@@ -80,7 +80,7 @@ def prepare(plan: SweepPlan, out_dir) -> tuple:
 
 
 def run_sweep(plan: SweepPlan, out_dir, workers=None, scheduler=None, on_row=None, should_stop=None,
-              plot: str | None = None) -> SweepResult:
+              plot: str | None = None, say=None) -> SweepResult:
     """Run the variants of ``plan`` not already complete in ``out_dir`` and write the table and plots.
 
     Parameters
@@ -97,8 +97,10 @@ def run_sweep(plan: SweepPlan, out_dir, workers=None, scheduler=None, on_row=Non
         Polled while variants run; True stops the sweep (as Ctrl-C does).
     plot : str, optional
         The table column plotted against each varied key (default: the first probe's maximum).
+    say : callable, optional
+        Told in one line what engine runs the variants.
     """
-    from heatsoak.core.app.sweep.engine import open_engine, run_tasks
+    from heatsoak.core.app.sweep.engine import describe, open_engine, run_tasks
 
     out = Path(out_dir)
     tasks, rows = prepare(plan, out)
@@ -115,6 +117,8 @@ def run_sweep(plan: SweepPlan, out_dir, workers=None, scheduler=None, on_row=Non
     status = "complete"
     if tasks:
         with open_engine(workers, scheduler) as client:
+            if say is not None:
+                say(f"running {len(tasks)} variant(s) on {describe(client)}")
             status = run_tasks(client, tasks, collect, should_stop)
     for v in plan.variants:  # a row for every variant, whatever happened
         rows.setdefault(v.name, Row(v.name, v.values, "cancelled"))
@@ -149,7 +153,8 @@ def cmd_sweep(args) -> int:
         raise InputError(f"--workers {args.workers}: give at least 1 worker process")
     t0 = time.perf_counter()
     show = _printer(len(plan.variants), args.quiet)
-    result = run_sweep(plan, args.out, args.workers, args.scheduler, on_row=show, plot=args.plot)
+    say = None if args.quiet else (lambda line: print(line, flush=True))
+    result = run_sweep(plan, args.out, args.workers, args.scheduler, on_row=show, plot=args.plot, say=say)
     counts = {s: sum(r.status == s for r in result.rows) for s in ("complete", "failed", "cancelled")}
     done = ", ".join(f"{n} {s}" for s, n in counts.items() if n)
     again = f" ({len(result.skipped)} already complete, not rerun)" if result.skipped else ""

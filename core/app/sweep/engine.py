@@ -31,7 +31,7 @@ from heatsoak.core.app.sweep.table import Row
 from heatsoak.core.app.sweep.worker import VariantTask, run_variant
 from heatsoak.core.errors import HeatsoakError, InputError
 
-__all__ = ["EngineError", "open_engine", "run_tasks"]
+__all__ = ["EngineError", "describe", "open_engine", "run_tasks"]
 
 #: Seconds running variants get to notice a stop request and return their rows.
 STOP_GRACE_S = 20.0
@@ -70,7 +70,30 @@ def _local_cluster(distributed, workers: int):
         return distributed.LocalCluster(
             n_workers=workers, threads_per_worker=1, processes=True, host="127.0.0.1",
             scheduler_port=0, dashboard_address=None, silence_logs=logging.ERROR,
-            scheduler_kwargs={"allowed_failures": 1})
+            # the scheduler's small HTTP server (health checks; no dashboard) on loopback, any free port
+            scheduler_kwargs={"allowed_failures": 1, "dashboard": False, "dashboard_address": "127.0.0.1:0"})
+
+
+def _connect(distributed, scheduler: str, timeout: float):
+    """A client on the running scheduler at ``scheduler`` that has at least one worker."""
+    try:
+        client = distributed.Client(scheduler, timeout=timeout)
+    except (OSError, TimeoutError, ValueError) as exc:
+        raise EngineError(f"--scheduler {scheduler}: cannot reach a dask scheduler there ({exc})") from None
+    try:
+        client.wait_for_workers(1, timeout=timeout)
+    except (OSError, TimeoutError):
+        client.close()
+        raise EngineError(f"--scheduler {scheduler}: the scheduler has no workers (waited {timeout:g} s); "
+                          f"start some with: dask worker {scheduler}") from None
+    return client
+
+
+def describe(client) -> str:
+    """One line: how many workers the engine has, and where its scheduler is."""
+    info = client.scheduler_info()
+    threads = sum(w.get("nthreads", 1) for w in info.get("workers", {}).values())
+    return f"{len(info.get('workers', {}))} worker(s), {threads} thread(s), scheduler {info.get('address', '?')}"
 
 
 @contextlib.contextmanager
@@ -84,15 +107,11 @@ def open_engine(workers: int | None = None, scheduler: str | None = None, timeou
     scheduler : str, optional
         Address of a running scheduler, ``tcp://host:port``; no local cluster is started.
     timeout : float
-        Seconds to wait for the scheduler.
+        Seconds to wait for the scheduler and for its first worker.
     """
     distributed = _distributed()
     if scheduler is not None:
-        try:
-            client = distributed.Client(scheduler, timeout=timeout)
-        except (OSError, TimeoutError, ValueError) as exc:
-            raise EngineError(f"--scheduler {scheduler}: cannot reach a dask scheduler there ({exc})") from None
-        with client:
+        with _connect(distributed, scheduler, timeout) as client:
             yield client
         return
     n = workers or os.cpu_count() or 1
