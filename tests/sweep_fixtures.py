@@ -13,7 +13,7 @@ from box_case import make_case
 VARY = ["boundary.xmax.h=[5, 50]", "material.right.conductivity=[20.0, 100.0, 200.0]"]
 
 
-def long_case(tmp_path, step=0.05):
+def long_case(tmp_path, step=0.1):
     """The box case with many small steps (about a second per run here) and few field writes."""
 
     def change(d):
