@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 from heatsoak.core.errors import MeshError
 from heatsoak.core.mesh.generate import box_mesh
-from heatsoak.core.mesh.geometry import cell_volumes
+from heatsoak.core.mesh.geometry import cell_volumes, face_areas
 from heatsoak.core.mesh.read import read_mesh
 from mixed_meshes import hex_grid
 
@@ -93,3 +93,44 @@ def test_an_include_loop_is_refused_naming_the_file(tmp_path):
     (tmp_path / "loop.inp").write_text("*NODE\n1, 0, 0, 0\n*INCLUDE, INPUT=loop.inp\n")
     with pytest.raises(MeshError, match="loop.inp: \\*INCLUDE nested more than"):
         read_mesh(tmp_path / "loop.inp")
+
+
+def _abaqus_faces(cells, faces, face_cell):
+    """Face label (1-4: S1-S4 of the deck format's tetrahedron) of each boundary face in its cell."""
+    table = np.array([[0, 1, 2], [0, 3, 1], [1, 3, 2], [2, 3, 0]])
+    local = np.sort(cells[face_cell][:, table], axis=2)  # (n, 4, 3)
+    return 1 + np.argmax((local == np.sort(faces[:, :3], axis=1)[:, None]).all(axis=2), axis=1)
+
+
+def test_a_part_and_assembly_deck_gives_surfaces_from_element_faces_and_ignores_internal_sets(tmp_path):
+    box = box_mesh((2, 2, 2))
+    hot = np.flatnonzero(box.points[box.faces[:, :3], 0].max(axis=1) < 1e-12)  # the side x = 0
+    label = _abaqus_faces(box.cells, box.faces[hot], box.face_cell[hot])
+    lines = ["*Heading", "*Part, name=Part-1", "*Node", *_nodes(box.points),
+             "*Element, type=C3D4", *_rows(1, box.cells),
+             "*Elset, elset=Set-1, generate", f"1, {box.n_cells}, 1",
+             "*Elset, elset=_PickedSet2, internal, generate", "1, 5, 1",
+             "*Solid Section, elset=Set-1, material=steel", ",", "*End Part", "*Assembly, name=Assembly",
+             "*Instance, name=Part-1-1, part=Part-1", "*End Instance"]
+    for s in np.unique(label):
+        lines += [f"*Elset, elset=_Hot_S{s}, internal, instance=Part-1-1",
+                  ", ".join(str(c + 1) for c in box.face_cell[hot][label == s])]
+    lines += ["*Surface, type=ELEMENT, name=Hot", *(f"_Hot_S{s}, S{s}" for s in np.unique(label)), "*End Assembly"]
+    (tmp_path / "cae.inp").write_text("\n".join(lines) + "\n")
+    mesh = read_mesh(tmp_path / "cae.inp")
+    assert mesh.region_names == ("Set-1",)  # not the internal _PickedSet2
+    areas = dict(zip(mesh.group_names, np.bincount(mesh.face_group, weights=face_areas(mesh.points, mesh.faces))))
+    assert mesh.group_names[0] == "Hot" and len(mesh.group_names) == 6  # Hot and the five other sides
+    np.testing.assert_allclose(areas["Hot"], 1.0, rtol=1e-12)
+
+
+def test_a_surface_on_hexahedron_faces_names_the_split_triangles(tmp_path):
+    points, hexes, cell = hex_grid(2, seed=3)
+    bottom = np.flatnonzero(cell[:, 2] == 0) + 1
+    lines = ["*NODE", *_nodes(points), "*ELEMENT, TYPE=C3D8", *_rows(1, hexes),
+             "*ELSET, ELSET=low", ", ".join(map(str, bottom)), "*SURFACE, NAME=base", "low, S1"]
+    (tmp_path / "hexs.inp").write_text("\n".join(lines) + "\n")
+    mesh = read_mesh(tmp_path / "hexs.inp")
+    areas = dict(zip(mesh.group_names, np.bincount(mesh.face_group, weights=face_areas(mesh.points, mesh.faces))))
+    np.testing.assert_allclose(areas["base"], 1.0, rtol=1e-12)
+    np.testing.assert_allclose(sum(areas.values()), 6.0, rtol=1e-12)
