@@ -63,3 +63,17 @@ def test_an_unknown_size_is_refused_with_the_allowed_ones():
 def test_the_machine_line_names_cores_and_solvers():
     line = bench.machine()
     assert "cores" in line and "scipy" in line and "direct solver" in line
+
+
+def test_the_reduced_rows_measure_build_answer_and_error_against_the_full_run(tmp_path):
+    out = tmp_path / "reduced.json"
+    printed = io.StringIO()
+    with contextlib.redirect_stdout(printed):
+        assert main(["bench", "--sizes", "tiny", "--steps", "30", "--reduced-only", "--json", str(out)]) == 0
+    (r,) = json.loads(out.read_text())
+    assert r["size"] == "reduced-tiny" and r["steps"] == 30 and r["basis"] > 0
+    for label in ("own", "changed"):
+        assert r[f"{label}_error_K"] <= 1e-3 * r[f"{label}_span_K"]
+        assert r[f"{label}_estimate_K"] >= r[f"{label}_error_K"] / 2
+        assert r[f"{label}_answer_s"] > 0
+    assert "build reduced model" in printed.getvalue()

@@ -29,6 +29,10 @@ compare (estimated run time per solver, null where left out).
 ``--sweep`` adds rows timing 8 variants of a small cube case on a local
 cluster of 2 worker processes against the same variants one after another
 (:mod:`heatsoak.core.app.sweep.bench`), and a JSON record with size "sweep".
+
+``--reduced`` adds the reduced model's rows per size (build against a full
+run, one answer, its error; :mod:`heatsoak.core.app.reduced_bench`) and
+records with size "reduced-NAME"; ``--reduced-only`` measures only those.
 """
 
 from __future__ import annotations
@@ -43,6 +47,7 @@ from multiprocessing import get_context
 from pathlib import Path
 
 from heatsoak.core.app import benchphases as ph
+from heatsoak.core.app.reduced_bench import measure_reduced, reduced_rows
 from heatsoak.core.errors import InputError
 from heatsoak.core.solve.linear import cholmod_available, factor_memory_gb
 
@@ -179,6 +184,15 @@ def parse_sizes(text: str) -> list:
     return names
 
 
+def _reduced(sizes, steps: int, where: str, pymor: bool = False) -> list:
+    """Records of :func:`~heatsoak.core.app.reduced_bench.measure_reduced`, one fresh process per size."""
+    out = []
+    for name in sizes:
+        print(f"measuring reduced model, {name} ...", file=sys.stderr, flush=True)
+        out.append({**_fresh_process(measure_reduced, name, steps, pymor), "machine": where})
+    return out
+
+
 def cmd_bench(args) -> int:
     """``heatsoak bench [--sizes small,medium,large] [--json FILE] [--steps N]``."""
     sizes = parse_sizes(args.sizes)
@@ -189,7 +203,7 @@ def cmd_bench(args) -> int:
           f"{ph.PROBE_SKIP + 1} to {ph.PROBE_STEPS};"
           " runs include assembly and field output; peak MB: whole phase, process included", flush=True)
     records, where = [], machine()
-    for name in sizes:
+    for name in [] if getattr(args, "reduced_only", False) else sizes:
         print(f"measuring {name} ...", file=sys.stderr, flush=True)
         for r in _fresh_process(measure_size, name, args.steps):
             r.update(_fresh_process(whole_run, name, r["fourier"], args.steps, r["solver"]), machine=where)
@@ -201,11 +215,15 @@ def cmd_bench(args) -> int:
         print("measuring sweep ...", file=sys.stderr, flush=True)
         sweep = measure_sweep()
         rows += sweep_rows(sweep, _t)
+    wanted = getattr(args, "reduced", False) or getattr(args, "reduced_only", False)
+    reduced = _reduced(sizes, args.steps, where, getattr(args, "pymor", False)) if wanted else []
+    rows += [row for r in reduced for row in reduced_rows(r, _t)]
     print(format_table(rows))
     for r in records:
         print(f"auto, {r['size']}, Fo {r['fourier']:g}: {r['solver']}: {r['solver_reason']}")
     if getattr(args, "sweep", False):
         records.append({"size": "sweep", **sweep, "machine": where})
+    records += reduced
     if args.json:
         Path(args.json).write_text(json.dumps(records, indent=2) + "\n", encoding="utf-8")
     return 0

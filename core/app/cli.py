@@ -78,6 +78,11 @@ def _bench_args(p):
     p.add_argument("--steps", type=int, default=1000, help="steps of the long runs (default 1000)")
     p.add_argument("--sweep", action="store_true", help="also time a sweep of 8 variants on 2 local worker processes "
                    "against the same variants one after another (needs the cluster extra)")
+    p.add_argument("--reduced", action="store_true", help="also time the reduced model (heatsoak whatif) per size: "
+                   "build against a full run, one answer, its error against the full run")
+    p.add_argument("--reduced-only", action="store_true", help="measure only the reduced-model rows")
+    p.add_argument("--pymor", action="store_true", help="with --reduced: also build pyMOR's balanced truncation "
+                   "of the same system and compare (the mor extra; small sizes only)")
 
 
 def _ui_args(p):

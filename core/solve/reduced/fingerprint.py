@@ -11,6 +11,7 @@ is part of the model.
 from __future__ import annotations
 
 import hashlib
+import weakref
 
 import numpy as np
 from heatsoak.core.problem.problem import Problem, TimeSettings
@@ -25,6 +26,20 @@ def _digest(*arrays) -> str:
         h.update(str(a.dtype).encode() + str(a.shape).encode())
         h.update(a.tobytes())
     return h.hexdigest()[:16]
+
+
+#: id(mesh) -> (weak reference to the mesh, digest): an answer checks its mesh without hashing it again.
+_MESH_DIGESTS: dict = {}
+
+
+def _mesh_digest(m) -> str:
+    known = _MESH_DIGESTS.get(id(m))
+    if known is not None and known[0]() is m:
+        return known[1]
+    digest = _digest(m.points, m.cells, m.cell_region, m.faces, m.face_group) + f" ({m.n_nodes} nodes, {m.n_cells} cells)"
+    key = id(m)
+    _MESH_DIGESTS[key] = (weakref.ref(m, lambda _: _MESH_DIGESTS.pop(key, None)), digest)
+    return digest
 
 
 def _conductivity(k) -> object:
@@ -43,8 +58,7 @@ def fingerprint(problem: Problem, time: TimeSettings) -> dict:
         nodal initial field.
     """
     m = problem.mesh
-    fp = {"mesh": _digest(m.points, m.cells, m.cell_region, m.faces, m.face_group)
-          + f" ({m.n_nodes} nodes, {m.n_cells} cells)", "mesh.unit": m.unit}
+    fp = {"mesh": _mesh_digest(m), "mesh.unit": m.unit}
     for name in m.region_names:
         mat = problem.materials[name]
         fp[f"material.{name}.density"] = float(mat.density)

@@ -24,15 +24,22 @@ __all__ = ["exact_steps", "theta_steps"]
 
 
 def _recurrence(z0: np.ndarray, alpha: np.ndarray, beta: np.ndarray) -> np.ndarray:
-    """z_{n+1} = alpha_n z_n + beta_n; returns (r, n_steps + 1) with z0 first."""
-    r, n = beta.shape
-    Z = np.empty((r, n + 1))
-    Z[:, 0] = z = z0
-    a, b = np.ascontiguousarray(alpha.T), np.ascontiguousarray(beta.T)
-    for k in range(n):
-        z = a[k] * z + b[k]
-        Z[:, k + 1] = z
-    return Z
+    """z_{n+1} = alpha_n z_n + beta_n; returns (r, n_steps + 1) with z0 first.
+
+    A parallel prefix scan over the steps (Hillis & Steele, CACM 29 (1986), from memory):
+    log2(n) vectorised passes, each composing every affine step map with the one 2^k
+    steps before it. Only products of the alphas (|alpha| <= 1 for stable steps) occur,
+    so nothing overflows.
+    """
+    a, b = np.array(alpha.T), np.array(beta.T)  # (n, r) copies
+    if b.shape[0]:
+        b[0] += a[0] * z0
+    s = 1
+    while s < b.shape[0]:
+        b[s:] += a[s:] * b[:-s]
+        a[s:] *= a[:-s]
+        s *= 2
+    return np.vstack([z0[None, :], b]).T
 
 
 def _inputs(sys, loads, groups, t0, t1):

@@ -81,8 +81,7 @@ class ReducedModel:
 def time_grid(problem: Problem, time: TimeSettings):
     """(times (n+1,) from 0, thetas (n,)) of the steps a full run of ``problem`` takes."""
     grid, damped = planned_steps(problem, time)
-    damped = set(damped.tolist())
-    thetas = np.array([1.0 if t in damped else float(time.theta) for t in grid])
+    thetas = np.where(np.isin(grid, damped), 1.0, float(time.theta))
     return np.concatenate([[0.0], grid]), thetas
 
 
