@@ -116,6 +116,6 @@ def test_find_gives_the_shortest_ramp_keeping_a_probe_below_a_limit_confirmed_by
     assert "answer: boundary.xmin.ramp.over =" in out and "confirming full run" in out
     found = json.loads((tmp_path / "f" / "find.json").read_text())
     assert found["edge"] > found["fails_at"]  # longer ramps keep the core cooler
-    assert abs(found["edge"] - 60.0) < 0.5
-    full = found["full_run"]
-    assert abs(full["quantity"] - found["reduced"]["quantity"]) <= max(2 * found["reduced"]["error_estimate"], 1e-9)
+    assert 60.0 <= found["edge"] < 61.0  # on the safe side of the full model's edge, by the estimate
+    full, est = found["full_run"], found["reduced"]["error_estimate"]
+    assert full["holds"] and 0 <= full["margin"] <= 2 * est + 1e-6

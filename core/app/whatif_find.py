@@ -11,8 +11,11 @@ Goals (P, Q probe names; X a temperature [degC]; TIME [s]):
 The number at KEY (e.g. ``boundary.bore.ramp.over``) is scanned over [LO, HI]
 on the reduced model, then the first change between holding and failing is
 narrowed by bisection; the answer is the edge value on the side where the
-goal holds. A full run at that value (files in ``--out``) says whether it
-really holds; the margin is how far the goal's quantity is from its limit.
+goal holds. The reduced answers are taken on the unsafe side by their
+estimated error (a limit X must hold for the temperature plus the estimate),
+so the edge is safe against the full model. A full run at that value (files
+in ``--out``) says whether the goal holds there; the margin is how far the
+goal's quantity is from its limit.
 """
 
 from __future__ import annotations
@@ -59,16 +62,18 @@ class Goal:
     limit: float
     text: str
 
-    def quantity(self, times, history: dict) -> float:
-        """The goal's quantity of probe histories ``history`` (name -> (n,) array) at ``times``."""
+    def quantity(self, times, history: dict, error: float = 0.0) -> float:
+        """The goal's quantity of probe histories ``history`` (name -> (n,) array) at ``times``,
+        taken on the unsafe side by ``error`` [K] (the reduced model's estimated error)."""
         a = history[self.probes[0]]
         if self.kind == "max":
-            return float(a.max())
+            return float(a.max()) + error
         if self.kind == "min":
-            return float(a.min())
+            return float(a.min()) - error
         if self.kind == "maxdiff":
-            return float(np.abs(a - history[self.probes[1]]).max())
-        hit = first_crossing(times, a, self.value)
+            return float(np.abs(a - history[self.probes[1]]).max()) + 2 * error
+        target = self.value + error * np.sign(self.value - a[0])  # a little further to go
+        hit = first_crossing(times, a, target)
         return np.inf if hit is None else hit
 
     def margin(self, quantity: float) -> float:
@@ -156,7 +161,7 @@ def _reduced_margin(model, outputs, case, key, goal, names):
     def full(x):
         c = case_at(case, key, x)
         ans = answer(model, c.problem, c.time, outputs, check=False)
-        q = goal.quantity(ans.times, _histories(names, ans.outputs))
+        q = goal.quantity(ans.times, _histories(names, ans.outputs), ans.error_estimate)
         return goal.margin(q), ans.error_estimate, q
 
     return (lambda x: full(x)[0]), full
@@ -203,7 +208,8 @@ def cmd_find(args, case, say) -> int:
         unit = "s" if goal.kind == "reach" else "K"
         print(f"answer: {key} = {found['edge']:.6g} (goal {goal.text} holds there, fails at {found['fails_at']:.6g}; "
               f"{found['evaluations']} reduced answers, {found['edges']} edge(s) in the scan)")
-        print(f"reduced model: quantity {q:.6g}, margin {m:.3g} {unit}, estimated error {est:.2g} K")
+        print(f"reduced model: quantity {q:.6g} with its estimated error {est:.2g} K on the unsafe side, "
+              f"margin {m:.3g} {unit}")
         print(f"confirming full run: quantity {q_full:.6g}, margin {goal.margin(q_full):.3g} {unit}, goal "
               f"{'holds' if goal.margin(q_full) > 0 else 'does NOT hold'}; files in {out}")
     Path(args.out).mkdir(parents=True, exist_ok=True)
