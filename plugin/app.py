@@ -48,13 +48,14 @@ def build_app(server, input_path=None, data_dir=None, work_dir=None, view_mode: 
                       classes="text-caption mr-4 hs-bar-note")
         with v3.VNavigationDrawer(width=420, permanent=True, classes="hs-drawer", id="hs-setup-drawer"):
             heat.setup_ui()
-        with v3.VNavigationDrawer(width=300, permanent=True, location="right", classes="hs-drawer"):
+        with v3.VNavigationDrawer(width=300, permanent=True, location="right", classes="hs-drawer hs-runs-drawer"):
             heat.runs_ui()
         with v3.VMain(classes="hs-main"):
             with html.Div(classes="d-flex flex-column", style="height: 100%"):
                 with locked():
                     run_bar(heat)
-                with html.Div(classes="hs-view flex-grow-1", style="position: relative; min-height: 340px"):
+                with html.Div(classes="hs-view flex-grow-1", v_show="!hs_runs_here || hs_pane != 'curves'",
+                              style="position: relative"):
                     heat.view_ui()
                 with locked():
                     player(heat)

@@ -133,9 +133,7 @@ def open_mesh(panel, path: Path, keep_forms: bool = False) -> bool:
     state.hs_unit_m = UNITS[state.hs_unit]
     panel.scene.show_mesh(mesh)
     setup_actions.mesh_changed(panel, keep_forms=keep_forms)
-    state.hs_playing = False
-    state.hs_view = "setup"
-    results_actions.refresh_rows(panel)
+    results_actions.mesh_opened(panel)
     panel.reset_camera()
     panel.update_view()
     return True

@@ -9,7 +9,8 @@ from __future__ import annotations
 import asyncio
 
 import numpy as np
-from heatsoak.plugin.results import plots
+from heatsoak.plugin.results import curves
+from heatsoak.plugin.runs.here import is_here
 from heatsoak.plugin.scene import DIFFERENCE_CMAP, DIFFERENCE_LABEL, TEMPERATURE_CMAP, UNIT_LABEL
 
 SPEEDS = (1, 2, 5, 10, 20)
@@ -24,9 +25,9 @@ def register(panel) -> None:
         "hs_runs": [], "hs_shown_run": None, "hs_diff_run": None, "hs_compare": [], "hs_frame": 0,
         "hs_n_frames": 0, "hs_playing": False, "hs_loop": True, "hs_speed": 5, "hs_speeds": list(SPEEDS),
         "hs_range_mode": "fixed", "hs_range": [0.0, 1.0], "hs_clip": False, "hs_clip_axis": "x",
-        "hs_clip_pos": 50, "hs_frame_time": "", "hs_probe_svg": "", "hs_region_svg": "", "hs_view": "setup",
-        "hs_probe_table": [],
+        "hs_clip_pos": 50, "hs_frame_time": "", "hs_view": "setup", "hs_runs_here": 0,
     })
+    curves.register(panel)
 
     @state.change("hs_shown_run", "hs_diff_run", "hs_clip", "hs_clip_axis", "hs_clip_pos")
     def on_field_choice(**_):
@@ -41,10 +42,6 @@ def register(panel) -> None:
     def on_range_mode(**_):
         apply_range(panel)
         panel.update_view()
-
-    @state.change("hs_compare")
-    def on_compare(**_):
-        refresh_curves(panel)
 
     @state.change("hs_view")
     def on_view_mode(hs_view, **_):
@@ -88,32 +85,56 @@ def register_player(panel) -> None:
         state.hs_frame = int(min(max(state.hs_frame + int(delta), 0), max(state.hs_n_frames - 1, 0)))
 
 
+def default_ticks(panel, run) -> list:
+    """The runs ticked for overlay by default: ``run`` and the run its label compares it with."""
+    if run is None:
+        return []
+    base = panel.runs.get(run.base_id)
+    return [run.id] + ([base.id] if base is not None else [])
+
+
 def runs_changed(panel, show=None) -> None:
-    """Refresh the run list; show run ``show`` (or keep the one shown if it still exists)."""
+    """Refresh the run list; show run ``show`` (a new run: it and the one it is compared with are
+    ticked, no other), or keep the one shown if it still exists on this mesh."""
     state = panel.state
     refresh_rows(panel)
-    ids = [r["id"] for r in state.hs_runs]
-    state.hs_compare = [i for i in state.hs_compare if i in ids]
+    here = [r["id"] for r in state.hs_runs if r["here"]]
     if show is not None:
-        state.hs_compare = sorted(set(state.hs_compare) | {show})
-    if state.hs_diff_run not in ids:
-        state.hs_diff_run = None
-    target = show if show is not None else (state.hs_shown_run if state.hs_shown_run in ids else None)
-    if target is None and ids:
-        target = ids[-1]
-    state.hs_shown_run = target
-    if target is not None:
-        state.hs_view = "results"
+        state.hs_compare = default_ticks(panel, panel.runs.get(show))
     else:
-        state.hs_view = "setup"
+        state.hs_compare = [i for i in state.hs_compare if i in here]
+    if state.hs_diff_run not in here:
+        state.hs_diff_run = None
+    target = show if show is not None else (state.hs_shown_run if state.hs_shown_run in here else None)
+    if target is None and here:
+        target = here[-1]
+    state.hs_shown_run = target
+    state.hs_view = "results" if target is not None else "setup"
     build_field(panel)
-    refresh_curves(panel)
+    curves.refresh_curves(panel)
+
+
+def mesh_opened(panel) -> None:
+    """Another mesh (or the same file again) is open: nothing of the previous one stays on screen.
+    Runs on this mesh (by content) stay viewable; the newest and its comparison are ticked."""
+    state = panel.state
+    state.update({"hs_playing": False, "hs_view": "setup", "hs_frame": 0, "hs_n_frames": 0, "hs_frame_time": "",
+                  "hs_diff_run": None, "hs_export_error": ""})
+    if not state.hs_running:  # a run still going keeps its progress line; the last one's words go
+        state.update({"hs_progress": 0.0, "hs_progress_text": "", "hs_run_error": "", "hs_solver_reason": ""})
+    refresh_rows(panel)
+    here = [r["id"] for r in state.hs_runs if r["here"]]
+    newest = panel.runs.get(here[-1]) if here else None
+    state.hs_shown_run = None if newest is None else newest.id
+    state.hs_compare = default_ticks(panel, newest)
+    curves.refresh_curves(panel)
 
 
 def refresh_rows(panel) -> None:
     """The run list, each row saying whether the run is on the mesh now open."""
-    panel.state.hs_runs = [row | {"here": panel.runs.get(row["id"]).mesh is panel.mesh}
-                           for row in panel.runs.rows()]
+    rows = [row | {"here": is_here(panel, panel.runs.get(row["id"]))} for row in panel.runs.rows()]
+    panel.state.hs_runs = rows
+    panel.state.hs_runs_here = sum(r["here"] for r in rows)
 
 
 def build_field(panel) -> None:
@@ -122,7 +143,7 @@ def build_field(panel) -> None:
     if run is None or run.series is None or len(run.series) == 0 or state.hs_view != "results":
         state.hs_n_frames = 0
         return
-    if run.mesh is not panel.mesh:
+    if not is_here(panel, run):
         state.hs_n_frames = 0
         state.hs_frame_time = f"Run {run.id} was on another mesh (or unit): open that mesh to see it in 3D"
         return
@@ -132,7 +153,7 @@ def build_field(panel) -> None:
         origin = lo + (hi - lo) * float(state.hs_clip_pos) / 100.0
         clip = (AXES[state.hs_clip_axis], tuple(origin))
     diff = panel.runs.get(state.hs_diff_run) if state.hs_diff_run != run.id else None
-    diff = diff if diff is not None and diff.mesh is run.mesh else None
+    diff = diff if is_here(panel, diff) else None
     title = DIFFERENCE_LABEL if diff else UNIT_LABEL
     panel.scene.show_field(clip=clip, cmap=DIFFERENCE_CMAP if diff else TEMPERATURE_CMAP, title=title)
     state.hs_n_frames = len(run.series)
@@ -161,10 +182,10 @@ def draw_frame(panel, k: int) -> None:
     """Overwrite the shown scalars with frame ``k`` and push the picture."""
     state, run = panel.state, panel.runs.get(panel.state.hs_shown_run)
     if run is None or run.series is None or not 0 <= k < len(run.series) or state.hs_view != "results" \
-            or run.mesh is not panel.mesh:
+            or not is_here(panel, run):
         return
     diff = panel.runs.get(state.hs_diff_run) if state.hs_diff_run != run.id else None
-    diff = diff if diff is not None and diff.mesh is run.mesh else None
+    diff = diff if is_here(panel, diff) else None
     values = frame_values(run, diff, k)
     panel.scene.set_values(values)
     panel._frame_range = [float(values.min()), float(values.max())]
@@ -200,49 +221,3 @@ async def play_loop(panel) -> None:
                     break
                 nxt = 0
             state.hs_frame = nxt
-
-
-def refresh_curves(panel) -> None:
-    """Probe and region curves of the runs chosen for comparison, thresholds and crossing times."""
-    state = panel.state
-    runs = [r for r in (panel.runs.get(i) for i in state.hs_compare) if r is not None]
-    if not runs:
-        state.hs_probe_svg = plots.empty_svg("Run the case to see probe curves here")
-        state.hs_region_svg = ""
-        state.hs_probe_table = []
-        return
-    many = len(runs) > 1
-    series, thresholds, marks, table = [], {}, [], []
-    for n, run in enumerate(runs):
-        for name, values in run.probes.items():
-            label = f"{name} (run {run.id})" if many else name
-            series.append((label, run.times, values, "-" if n == 0 else "--"))
-            info = run.summary.get("probes", {}).get(name, {})
-            if info.get("threshold") is not None:
-                thresholds[name] = info["threshold"]
-                if info.get("crossing_time") is not None:
-                    marks.append((f"{info['crossing_time']:.4g} s", info["crossing_time"], info["threshold"]))
-            table.append({"run": run.id, "probe": name, "last": float(values[-1]) if len(values) else None,
-                          "max": float(values.max()) if len(values) else None,
-                          "threshold": info.get("threshold"), "crossing": info.get("crossing_time")})
-    state.hs_probe_table = table
-    state.hs_probe_svg = (plots.curves_svg(series, thresholds=[(f"{k} limit {v:g}", v) for k, v in thresholds.items()],
-                                           marks=marks) if series else plots.empty_svg("No probes in this run"))
-    region_series = []
-    for n, run in enumerate(runs):
-        for name, r in run.regions.items():
-            label = f"{name} (run {run.id})" if many else name
-            region_series.append((f"{label} mean", r["time"], r["mean"], "-" if n == 0 else "--"))
-            region_series.append((f"{label} min/max", r["time"], r["min"], {"linestyle": ":", "linewidth": 1.0}))
-            region_series.append(("_", r["time"], r["max"], {"linestyle": ":", "linewidth": 1.0}))
-    state.hs_region_svg = plots.curves_svg(_pair_colours(region_series))
-
-
-def _pair_colours(series) -> list:
-    """Give a region's mean, min and max curves one colour."""
-    out = []
-    for i, (label, t, v, style) in enumerate(series):
-        colour = plots.CURVES[(i // 3) % len(plots.CURVES)]
-        opts = (style if isinstance(style, dict) else {"linestyle": style}) | {"color": colour}
-        out.append((label, t, v, opts))
-    return out

@@ -3,7 +3,8 @@
 from __future__ import annotations
 
 from heatsoak.plugin.results import time_error
-from trame.widgets import html
+from heatsoak.plugin.runs.layout import save_js
+from trame.widgets import html, plotly
 from trame.widgets import vuetify3 as v3
 
 #: Choices of what the 3D view shows: the temperature, or its difference to another run on the same mesh.
@@ -29,12 +30,13 @@ def run_bar(panel) -> None:
             html.Div("{{ hs_run_reason }}", v_if="hs_run_reason && !hs_running", classes="text-caption hs-reason",
                      id="hs-run-reason")
             html.Div("{{ hs_run_error }}", v_if="hs_run_error", classes="text-caption text-error", id="hs-run-error")
+        pane_toggle()
 
 
 def player(panel) -> None:
     """Play, pause, step, scrub, loop, speed, colour range, clip plane, difference."""
     ctrl = panel.ctrl
-    with html.Div(classes="hs-player px-3 py-1", v_if="hs_runs.length", id="hs-player"):
+    with html.Div(classes="hs-player px-3 py-1", v_if="hs_runs_here", id="hs-player"):
         with html.Div(classes="d-flex align-center ga-2 flex-wrap"):
             with v3.VBtnToggle(v_model=("hs_view",), density="compact", mandatory=True, divided=True,
                                variant="outlined", color="#2f5d50", id="hs-view-mode"):
@@ -54,11 +56,11 @@ def player(panel) -> None:
         with html.Div(classes="d-flex align-center ga-3 flex-wrap"):
             v3.VCheckbox(v_model=("hs_loop",), label="loop", density="compact", hide_details=True)
             v3.VSelect(v_model=("hs_speed",), items=("hs_speeds",), label="frames/s", density="compact",
-                       variant="outlined", hide_details=True, style="min-width: 110px; max-width: 110px")
+                       variant="outlined", hide_details=True, style="min-width: 96px; max-width: 96px")
             with v3.VBtnToggle(v_model=("hs_range_mode",), density="compact", mandatory=True, divided=True,
                                variant="outlined", color="#2f5d50", id="hs-range-mode"):
-                v3.VBtn("range: whole run", value="fixed", size="small")
-                v3.VBtn("range: this frame", value="auto", size="small")
+                v3.VBtn("whole run", value="fixed", size="small", title="colour range over the whole run")
+                v3.VBtn("this frame", value="auto", size="small", title="colour range of this frame")
             with html.Span(classes="text-caption"):
                 html.Span("{{ hs_range[0] }} … {{ hs_range[1] }}", id="hs-range")
                 html.Span("{{ hs_diff_run == null ? '°C' : 'K' }}", classes="ml-1", id="hs-range-unit")
@@ -70,31 +72,81 @@ def player(panel) -> None:
                        density="compact", style="max-width: 160px", color="#2f5d50", end="hs_clip_pos = $event")
             v3.VSelect(v_model=("hs_diff_run",), items=(DIFF_ITEMS,),
                        label="show", density="compact", variant="outlined", hide_details=True,
-                       style="max-width: 170px", id="hs-diff")
+                       style="max-width: 150px", id="hs-diff")
+
+
+def pane_toggle() -> None:
+    """Give the room to the 3D view, to the curves, or share it."""
+    with v3.VBtnToggle(v_model=("hs_pane",), density="compact", mandatory=True, divided=True, variant="outlined",
+                       color="#2f5d50", v_if="hs_runs_here", id="hs-pane"):
+        for value, icon, tip in (("view", "mdi-cube-outline", "3D view only"),
+                                 ("both", "mdi-view-split-horizontal", "3D view and curves"),
+                                 ("curves", "mdi-chart-line", "curves only")):
+            v3.VBtn(icon=icon, value=value, size="small", title=tip, id=f"hs-pane-{value}")
 
 
 def curves(panel) -> None:
-    """Probe curves with thresholds and crossings, region mean/min/max curves."""
-    with html.Div(classes="d-flex ga-2 px-3 pb-2 hs-curves", v_if="hs_runs.length", id="hs-curves"):
-        with v3.VCard(variant="outlined", classes="pa-2 flex-grow-1 hs-card"):
-            html.Div("Probes", classes="text-subtitle-2")
-            time_error.widget()
-            html.Div(v_html=("hs_probe_svg",), classes="hs-plot", id="hs-probe-plot")
-            with v3.VTable(density="compact", v_if="hs_probe_table.length", id="hs-probe-values"):
-                with html.Thead(), html.Tr():
-                    for h in ("Run", "Probe", "Last [°C]", "Limit [°C]", "Reached at"):
-                        html.Th(h, classes="text-caption")
-                with html.Tbody():
-                    with html.Tr(v_for="row in hs_probe_table", key="row.run + row.probe", classes="hs-probe-row"):
-                        html.Td("{{ row.run }}", classes="text-caption")
-                        html.Td("{{ row.probe }}", classes="text-caption")
-                        html.Td("{{ row.last == null ? '' : row.last.toFixed(4) }}", classes="text-caption hs-last")
-                        html.Td("{{ row.threshold == null ? '–' : row.threshold }}", classes="text-caption")
-                        html.Td("{{ row.crossing == null ? (row.threshold == null ? '' : 'not reached') : "
-                                "row.crossing.toPrecision(4) + ' s' }}", classes="text-caption")
-        with v3.VCard(variant="outlined", classes="pa-2 flex-grow-1 hs-card"):
-            html.Div("Regions: mean, min and max", classes="text-subtitle-2")
-            html.Div(v_html=("hs_region_svg",), classes="hs-plot", id="hs-region-plot")
+    """Interactive probe and region curves in tabs, the probe table beside (or below) the probes."""
+    with html.Div(v_show="hs_runs_here && hs_pane != 'view'", id="hs-curves",
+                  classes=("hs_pane == 'curves' ? 'hs-curves hs-curves-max' : 'hs-curves'",)):
+        curves_bar(panel)
+        with html.Div(v_show="hs_curves_tab == 'probes'", classes="hs-curves-body hs-probe-body"):
+            with html.Div(classes="hs-row-full", v_if="hs_time_error"):
+                time_error.widget()
+            with html.Div(classes="hs-fig hs-probe-fig", id="hs-probe-plot"):
+                plotly.Figure(state_variable_name="hs_probe_fig", display_logo=False, responsive=True,
+                              mode_bar_buttons_to_remove=MODEBAR_OFF,
+                              to_image_options=("{filename: 'probe-curves', format: 'png', scale: 2}",))
+            probe_table()
+        with html.Div(v_show="hs_curves_tab == 'regions'", classes="hs-curves-body"):
+            with html.Div(classes="hs-fig", id="hs-region-plot"):
+                plotly.Figure(state_variable_name="hs_region_fig", display_logo=False, responsive=True,
+                              mode_bar_buttons_to_remove=MODEBAR_OFF,
+                              to_image_options=("{filename: 'region-curves', format: 'png', scale: 2}",))
+
+
+#: Buttons of the plot's tool bar that do nothing useful on time curves.
+MODEBAR_OFF = ("['select2d', 'lasso2d', 'autoScale2d']",)
+
+
+def curves_bar(panel) -> None:
+    """Tabs, the region and statistic choices, and the CSV of what is plotted."""
+    with html.Div(classes="d-flex align-center ga-2 px-2 hs-curves-bar"):
+        with v3.VTabs(v_model=("hs_curves_tab",), density="compact", color="#2f5d50", id="hs-curves-tabs"):
+            v3.VTab("Probes", value="probes", id="hs-tab-probes")
+            v3.VTab("Regions", value="regions", id="hs-tab-regions")
+        v3.VSpacer()
+        with html.Div(v_if="hs_curves_tab == 'regions'", classes="d-flex align-center ga-2"):
+            with v3.VSelect(v_model=("hs_region_pick",), items=("hs_region_names",), multiple=True, label="regions",
+                            density="compact", variant="outlined", hide_details=True, id="hs-region-pick",
+                            style="min-width: 160px; max-width: 260px"):
+                with v3.Template(v_slot_selection="{ item, index }"):
+                    html.Span("{{ item.title }}{{ index < Math.min(hs_region_pick.length, 2) - 1 ? ',' : '' }}",
+                              v_if="index < 2", classes="mr-1 text-truncate")
+                    html.Span("+{{ hs_region_pick.length - 2 }}", v_if="index === 2", classes="text-caption")
+            v3.VSelect(v_model=("hs_region_stat",), items=("hs_stat_items",), label="show", density="compact",
+                       variant="outlined", hide_details=True, style="width: 190px", id="hs-region-stat")
+        v3.VBtn("CSV", prepend_icon="mdi-table-arrow-down", size="small", variant="text", color="#2f5d50",
+                id="hs-curves-csv", title="the curves plotted here, as CSV",
+                click=save_js("`${hs_curves_tab}-curves.csv`", "trigger('hs_export_curves', [hs_curves_tab])",
+                              "'text/csv'"))
+
+
+def probe_table() -> None:
+    """Last value, limit and when it was first reached, per run and probe; never wider than its box."""
+    with html.Div(classes="hs-probe-table", v_if="hs_probe_table.length"):
+        with v3.VTable(density="compact", id="hs-probe-values"):
+            with html.Thead(), html.Tr():
+                for h in ("Run", "Probe", "Last [°C]", "Limit [°C]", "Reached at"):
+                    html.Th(h, classes="text-caption")
+            with html.Tbody():
+                with html.Tr(v_for="row in hs_probe_table", key="row.run + row.probe", classes="hs-probe-row"):
+                    html.Td("{{ row.run }}", classes="text-caption")
+                    html.Td("{{ row.probe }}", classes="text-caption")
+                    html.Td("{{ row.last == null ? '' : row.last.toFixed(3) }}", classes="text-caption hs-last")
+                    html.Td("{{ row.threshold == null ? '–' : row.threshold }}", classes="text-caption")
+                    html.Td("{{ row.crossing == null ? (row.threshold == null ? '' : 'not reached') : "
+                            "row.crossing.toPrecision(4) + ' s' }}", classes="text-caption hs-reached")
 
 
 def build(panel) -> None:

@@ -1,4 +1,4 @@
-"""Small line plots rendered on the server as SVG text for the panel.
+"""Small line plots rendered on the server as SVG text (the schedule preview of the set-up).
 
 matplotlib's object API (no pyplot) so plots can be drawn from any thread.
 """
@@ -7,7 +7,6 @@ from __future__ import annotations
 
 import io
 
-import numpy as np
 from matplotlib.figure import Figure
 
 INK = "#2d3331"
@@ -57,39 +56,6 @@ def schedule_svg(times, values, unit: str, window: float | None = None, width: f
     ax.plot(times, values, color=CURVES[0], linewidth=1.8)
     ax.set_xlabel("time [s]", fontsize=8, color=INK)
     ax.set_ylabel(unit, fontsize=8, color=INK)
-    return _svg(fig)
-
-
-def curves_svg(series, ylabel: str = "Temperature [°C]", thresholds=(), marks=(), width: float = 5.2,
-               height: float = 2.3) -> str:
-    """Several curves against time.
-
-    Parameters
-    ----------
-    series : list of (label, times (n,), values (n,), style)
-        ``style`` is "-" (solid) or "--" (dashed) or a dict of line options.
-    thresholds : list of (label, value)
-        Horizontal dotted lines.
-    marks : list of (label, time, value)
-        Points marked with a cross (threshold crossings).
-    """
-    fig, ax = _figure(width, height)
-    for i, (label, t, v, style) in enumerate(series):
-        opts = style if isinstance(style, dict) else {"linestyle": style}
-        opts = {"color": CURVES[i % len(CURVES)], "linewidth": 1.6} | opts
-        ax.plot(np.asarray(t), np.asarray(v), label=label, **opts)
-    for label, value in thresholds:
-        ax.axhline(value, color="#8a8f8c", linestyle=":", linewidth=1.2)
-        ax.annotate(label, (0.01, value), xycoords=("axes fraction", "data"), fontsize=7, color=INK,
-                    va="bottom")
-    for label, t, value in marks:
-        ax.plot([t], [value], marker="x", color=INK, markersize=7, mew=1.6)
-        ax.annotate(label, (t, value), textcoords="offset points", xytext=(4, -10), fontsize=7, color=INK)
-    ax.set_xlabel("time [s]", fontsize=8, color=INK)
-    ax.set_ylabel(ylabel, fontsize=8, color=INK)
-    shown = [s for s in series if not str(s[0]).startswith("_")]
-    if shown:
-        ax.legend(fontsize=6.5 if len(shown) > 6 else 7, frameon=False, loc="best", ncol=2 if len(shown) > 6 else 1)
     return _svg(fig)
 
 

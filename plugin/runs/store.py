@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import csv
+import hashlib
 import json
 import shutil
 from dataclasses import dataclass, field
@@ -58,7 +59,9 @@ class Run:
     probes: dict = field(default_factory=dict)
     regions: dict = field(default_factory=dict)
     series: FieldSeries | None = None
-    mesh: object = None
+    mesh_key: str = ""
+    mesh_name: str = ""
+    base_id: int | None = None
 
     @property
     def status(self) -> str:
@@ -77,7 +80,26 @@ class Run:
         """What the run list shows."""
         s = self.summary
         return {"id": self.id, "label": self.label, "status": self.status, "steps": s.get("steps", 0),
-                "end_time": s.get("end_time", 0.0), "frames": 0 if self.series is None else len(self.series)}
+                "end_time": s.get("end_time", 0.0), "frames": 0 if self.series is None else len(self.series),
+                "mesh": self.mesh_name, "base": self.base_id}
+
+
+def mesh_key(mesh) -> str:
+    """Identity of a mesh by what it holds, not by the object in memory: a digest of its node
+    coordinates [m] (so the length unit it was read in counts), its cells and their regions.
+    The same file opened again gives the same key; any other mesh, another one."""
+    digest = hashlib.blake2b(digest_size=16)
+    for array in (mesh.points, mesh.cells, mesh.cell_region):
+        a = np.ascontiguousarray(array)
+        digest.update(f"{a.dtype.str}{a.shape}".encode())
+        digest.update(a.data)
+    return digest.hexdigest()
+
+
+def mesh_label(mesh) -> str:
+    """The mesh's file name (or a plain word when it came from no file)."""
+    source = str(getattr(mesh, "source", "") or "")
+    return Path(source).name if source else "a mesh"
 
 
 class RunStore:
@@ -91,12 +113,30 @@ class RunStore:
         return self._next
 
     def add(self, case: dict, out_dir, summary: dict, mesh=None) -> Run:
-        """Keep a finished run of ``mesh``; its label compares its case with the last run's."""
-        previous = self.runs[-1].case if self.runs else None
-        run = Run(self._next, run_label(previous, case), case, Path(out_dir), summary, mesh=mesh).load()
+        """Keep a finished run of ``mesh``; its label compares its case with the last run on the
+        same mesh (by content), or says that the mesh changed."""
+        key = mesh_key(mesh) if mesh is not None else ""
+        name = mesh_label(mesh) if mesh is not None else ""
+        base = self.latest(key)
+        if base is not None:
+            label = run_label(base.case, case)
+        elif self.runs:
+            label = f"another mesh: {self.runs[-1].mesh_name} -> {name}"
+        else:
+            label = run_label(None, case)
+        run = Run(self._next, label, case, Path(out_dir), summary, mesh_key=key, mesh_name=name,
+                  base_id=None if base is None else base.id).load()
         self._next += 1
         self.runs.append(run)
         return run
+
+    def latest(self, key: str) -> Run | None:
+        """The newest run on the mesh of ``key``."""
+        return next((r for r in reversed(self.runs) if r.mesh_key == key), None)
+
+    def on_mesh(self, key: str) -> list[Run]:
+        """Runs on the mesh of ``key``, oldest first."""
+        return [r for r in self.runs if r.mesh_key == key]
 
     def get(self, run_id) -> Run | None:
         return next((r for r in self.runs if r.id == run_id), None)
