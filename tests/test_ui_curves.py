@@ -159,3 +159,24 @@ def test_runs_compare_only_with_runs_on_the_same_mesh(demo_runs):
     assert store.latest(mesh_key(again)).id == 2
     assert [r.id for r in store.on_mesh(mesh_key(again))] == [1, 2]
     store.runs.remove(elsewhere)
+
+
+def test_a_clicked_point_is_rounded_to_what_a_click_can_tell():
+    from heatsoak.plugin.setup.actions import clicked_coordinates
+
+    point = np.array([0.02998312764, -1.2e-19, 0.01900000004])  # metres, a 120 mm part
+    assert clicked_coordinates(point, 1e-3, 0.12) == [29.98, 0.0, 19.0]  # mm: 0.012 mm steps
+    assert clicked_coordinates(point, 1.0, 0.12) == [0.02998, 0.0, 0.019]
+
+
+def test_the_bare_case_file_names_its_mesh_and_says_it_must_lie_beside_it(tmp_path):
+    from heatsoak.plugin.export.actions import bare_case_toml
+
+    data = read_case_toml(MESHES / "platen_warmup.toml")
+    data["mesh"]["file"] = "../meshes/sub/platen.msh"  # as the forms may hold it, relative to the case opened
+    data["boundary"]["base"]["table"] = [[0.0, 22.0], [3600.0, 30.0]]  # the UI writes tables inline
+    text = bare_case_toml(data, MESHES / "platen.msh")
+    assert text.splitlines()[0].startswith("# Needs the mesh file platen.msh in the same folder")
+    (tmp_path / "saved.toml").write_text(text)
+    shutil.copy(MESHES / "platen.msh", tmp_path / "platen.msh")
+    assert load_case(tmp_path / "saved.toml").mesh.n_nodes > 0  # it resolves where it is saved

@@ -16,7 +16,17 @@ from pathlib import Path
 import numpy as np
 import pytest
 import tomllib
-from uidriver import DEMO, choose, copy_demo_files, field_message, fill, open_section, require_browser, wait_for
+from uidriver import (
+    DEMO,
+    choose,
+    copy_demo_files,
+    field_message,
+    fill,
+    open_section,
+    require_browser,
+    run_and_wait,
+    wait_for,
+)
 
 pytestmark = pytest.mark.browser
 playwright_api = require_browser()
@@ -54,13 +64,6 @@ def download(page, button: str, path: Path) -> Path:
         page.click(button)
     dl.value.save_as(path)
     return path
-
-
-def run_and_wait(page, runs_before: int) -> None:
-    page.wait_for_selector("#hs-run:not([disabled])", timeout=15_000)
-    page.click("#hs-run")
-    wait_for(lambda: page.locator(".hs-run-row").count() > runs_before, 90, what="the run to be listed")
-    page.wait_for_selector("#hs-progress-text >> text=complete", timeout=30_000)
 
 
 def to_setup(page) -> None:

@@ -32,14 +32,14 @@ def register(panel) -> None:
 
     @server.trigger("hs_export_case")
     def export_case():
-        """The case as TOML, exactly what ``heatsoak run`` reads (mesh file next to it)."""
+        """The case as TOML, exactly what ``heatsoak run`` reads with the mesh file beside it."""
         state.hs_export_error = ""
         data, errors = setup_actions.current_case(panel)
         if errors:
             state.hs_export_error = f"the case has unreadable entries: {errors[0]}"
             return None
         guard.mark_kept(panel)
-        return case_to_toml(data)
+        return bare_case_toml(data, panel.mesh_path)
 
     @server.trigger("hs_export_bundle")
     def export_bundle():
@@ -72,6 +72,17 @@ def register(panel) -> None:
         if run is None:
             return None
         return attach(animation_bytes(panel, run, fmt))
+
+
+def bare_case_toml(data: dict, mesh_path) -> str:
+    """The case file on its own: it names its mesh by the file name alone, and its first lines say
+    that the mesh file must lie beside it (the browser saves it where the user says, unknown here)."""
+    if mesh_path is None:
+        return case_to_toml(data)
+    name = Path(mesh_path).name
+    text = case_to_toml({**data, "mesh": {**data["mesh"], "file": name}})
+    return (f"# Needs the mesh file {name} in the same folder as this file (or write its path in [mesh] file).\n"
+            "# 'Case and mesh (.zip)' holds both.\n" + text)
 
 
 def case_bundle(data: dict, mesh_path: Path) -> bytes:

@@ -128,6 +128,7 @@ def register_probes(panel) -> None:
         state.hs_probe_error = ""
         state.hs_probes = [p for p in state.hs_probes if p["name"] != row["name"]] + [row]
         state.hs_p_name = next_probe_name(state.hs_probes)
+        state.hs_p_threshold = None  # a threshold belongs to the probe it was typed for, not to the next one
         probes_changed(panel)
 
     @ctrl.set("hs_remove_probe")
@@ -151,11 +152,27 @@ def register_probes(panel) -> None:
             return
         point, group = hit
         if state.hs_pick_mode == "probe":
-            scale = UNITS.get(state.hs_unit, 1.0)
-            state.hs_p_x, state.hs_p_y, state.hs_p_z = (float(f"{c / scale:.6g}") for c in point)
+            size = float(np.ptp(panel.mesh.points, axis=0).max())
+            state.hs_p_x, state.hs_p_y, state.hs_p_z = clicked_coordinates(point, UNITS.get(state.hs_unit, 1.0), size)
             add_probe()
         else:
             state.hs_group = panel.mesh.group_names[group]
+
+
+def clicked_coordinates(point, scale: float, size: float) -> list:
+    """A clicked point in the file's unit, rounded to 1e-4 of the model's size (a click is no more
+    exact than that): ``[29.98, 0.05, 19.0]`` rather than ``[29.98312764, 0.0497781, 19.00000004]``.
+
+    Parameters
+    ----------
+    point : (3,) array [m]
+    scale : float
+        Metres per unit of the file.
+    size : float
+        Largest extent of the model [m].
+    """
+    decimals = int(max(0, np.ceil(-np.log10(max(size, 1e-30) * 1e-4 / scale))))
+    return [round(float(c) / scale, decimals) + 0.0 for c in point]
 
 
 def next_probe_name(probes) -> str:

@@ -107,7 +107,8 @@ def surfaces_section(panel) -> None:
                 with v3.Template(v_slot_prepend=True):
                     html.Span(classes="hs-swatch", style=("`background:${g.color}`",))
                 v3.VListItemTitle("{{ g.name }}", classes="text-body-2")
-                v3.VListItemSubtitle("{{ g.summary }} · {{ Number((g.area * 1e6).toPrecision(3)).toLocaleString() }} mm²")
+                v3.VListItemSubtitle("{{ g.summary }} · {{ Number((g.area / (hs_unit_m * hs_unit_m)).toPrecision(3))"
+                                     ".toLocaleString() }} {{ hs_unit }}²")
                 with v3.Template(v_slot_append=True):
                     v3.VIcon("mdi-alert-circle", v_if="g.bad", color="#b3261e", size="small")
         condition_editor(panel)
@@ -235,16 +236,17 @@ def probes_section(panel) -> None:
                     with html.Td(colspan=4, classes="text-caption hs-reason"):
                         v3.VIcon("mdi-information-outline", size="x-small", classes="mr-1")
                         html.Span("{{ p.name }} · {{ hs_probe_notes[i] }}")
-        with v3.VRow(dense=True):
-            with v3.VCol(cols=4):
-                number("hs_p_name", "Name", id="hs-p-name")
+        with v3.VRow(dense=True):  # x, y, z a row of their own: a clicked point's digits fit
             for c in "xyz":
                 with v3.VCol(cols=4):
-                    number(f"hs_p_{c}", c, ("hs_unit",), id=f"hs-p-{c}")
-            with v3.VCol(cols=4):
-                number("hs_p_threshold", "Threshold", "°C", id="hs-p-threshold")
+                    number(f"hs_p_{c}", c, ("hs_unit",), id=f"hs-p-{c}", classes="hs-coord")
+            with v3.VCol(cols=5):
+                number("hs_p_name", "Name", id="hs-p-name")
+            with v3.VCol(cols=7):
+                number("hs_p_threshold", "Threshold (this probe)", "°C", id="hs-p-threshold")
         v3.VBtn("Add probe", prepend_icon="mdi-plus", size="small", variant="tonal", color="#2f5d50",
                 click=after_edits(panel.server, ctrl.hs_add_probe), id="hs-add-probe")
         html.Div("{{ hs_probe_error }}", v_if="hs_probe_error", classes="text-caption text-error",
                  id="hs-probe-error")
-        note("Or choose 'place probe' above and click on the surface.")
+        note("Or choose 'place probe' above and click on the surface. The threshold typed here goes with "
+             "the next probe added only.")

@@ -224,3 +224,11 @@ def open_listed(page, name: str) -> None:
     """Click a file of the data-folder list, letting any changes of the set-up go."""
     page.locator(".hs-file", has_text=name).first.click()
     discard_if_asked(page)
+
+
+def run_and_wait(page, runs_before: int) -> None:
+    """Press Run once it is enabled and wait until the run is listed and complete."""
+    page.wait_for_selector("#hs-run:not([disabled])", timeout=15_000)
+    page.click("#hs-run")
+    wait_for(lambda: page.locator(".hs-run-row").count() > runs_before, 90, what="the run to be listed")
+    page.wait_for_selector("#hs-progress-text >> text=complete", timeout=30_000)
