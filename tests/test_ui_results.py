@@ -11,8 +11,7 @@ import re
 from pathlib import Path
 
 import pytest
-from uidriver import DEMO, copy_demo_files, discard_if_asked, open_listed, open_section, require_browser, \
-    run_and_wait, wait_for
+from uidriver import DEMO, copy_demo_files, discard_if_asked, open_listed, open_section, require_browser, run_and_wait, wait_for
 
 pytestmark = pytest.mark.browser
 playwright_api = require_browser()
