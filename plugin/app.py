@@ -31,7 +31,7 @@ def build_app(server, input_path=None, data_dir=None, work_dir=None, view_mode: 
     """Lay out the bare viewer on ``server`` and mount the heat panel; returns the panel."""
     from heatsoak.plugin.panel import mount
     from heatsoak.plugin.pvtrame import new_plotter
-    from heatsoak.plugin.results.layout import curves, player, run_bar
+    from heatsoak.plugin.results.layout import VIEW_SHOWN, curves, player, run_bar
     from heatsoak.plugin.session.layout import locked
     from trame.ui.vuetify3 import VAppLayout
     from trame.widgets import html
@@ -54,10 +54,10 @@ def build_app(server, input_path=None, data_dir=None, work_dir=None, view_mode: 
             with html.Div(classes="d-flex flex-column", style="height: 100%"):
                 with locked():
                     run_bar(heat)
-                with html.Div(classes="hs-view flex-grow-1", v_show="!hs_runs_here || hs_pane != 'curves'",
+                with html.Div(classes="hs-view flex-grow-1", v_show=VIEW_SHOWN,
                               style="position: relative"):
                     heat.view_ui()
-                with locked():
+                with locked(style="display: flex; flex-direction: column; min-height: 0"):
                     player(heat)
                     curves(heat)
     heat.layout = layout

@@ -70,7 +70,7 @@ def base_layout(ytitle: str, n_runs: int) -> dict:
     layout = {
         "margin": {"l": 56, "r": 12, "t": 30, "b": 44}, "autosize": True, "hovermode": "x unified",
         "font": {"size": 12, "color": INK}, "paper_bgcolor": "rgba(0,0,0,0)", "plot_bgcolor": "white",
-        "xaxis": {"title": {"text": "time [s]"}, "gridcolor": GRID, "zeroline": False, "hoverformat": ".6g"},
+        "xaxis": {"title": {"text": "time [s]"}, "gridcolor": GRID, "zeroline": False, "hoverformat": ".6~g"},
         "yaxis": {"title": {"text": ytitle}, "gridcolor": GRID, "zeroline": False},
         "legend": {"orientation": "h", "x": 0, "xanchor": "left", "y": 1.0, "yanchor": "bottom",
                    "font": {"size": 11}, "groupclick": "togglegroup"},

@@ -7,6 +7,8 @@ from heatsoak.plugin.runs.layout import save_js
 from trame.widgets import html, plotly
 from trame.widgets import vuetify3 as v3
 
+#: ``v_show`` of the host's 3D view box: hidden while the curves are given the whole height.
+VIEW_SHOWN = "!hs_runs_here || hs_pane != 'curves'"
 #: Choices of what the 3D view shows: the temperature, or its difference to another run on the same mesh.
 DIFF_ITEMS = ("[{title: 'temperature', value: null}].concat(hs_runs.filter(r => r.id != hs_shown_run && r.here)"
               ".map(r => ({title: `minus run ${r.id}`, value: r.id})))")
