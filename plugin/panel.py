@@ -70,6 +70,7 @@ class HeatPanel:
         self.mesh = None
         self.mesh_path = None
         self.case_dir = self.data_dir
+        self.root = None  # the folder files named by the open case must stay in (see load.actions.case_paths)
         self.runs = RunStore()
         self.job = None
         self.views = []

@@ -12,6 +12,8 @@ from pathlib import Path
 
 import imageio.v3 as iio
 from heatsoak.core.case.casefile import case_to_toml
+from heatsoak.core.case.paths import CasePaths
+from heatsoak.core.errors import InputError
 from heatsoak.plugin.load import guard
 from heatsoak.plugin.results import actions as results_actions
 from heatsoak.plugin.setup import actions as setup_actions
@@ -49,8 +51,13 @@ def register(panel) -> None:
         if errors or panel.mesh_path is None:
             state.hs_export_error = "open a mesh and fix the marked entries first"
             return None
+        try:  # checked again now: the file may have been replaced (by a link out of the folder) since it was opened
+            mesh_path = CasePaths(panel.case_dir, panel.root).resolve_mesh("mesh.file", panel.mesh_path.name)
+        except InputError as exc:
+            state.hs_export_error = f"the mesh cannot go into the zip: {exc}"
+            return None
         guard.mark_kept(panel)
-        return attach(case_bundle(data, panel.mesh_path))
+        return attach(case_bundle(data, mesh_path))
 
     @server.trigger("hs_export_results")
     def export_results():

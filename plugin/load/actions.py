@@ -2,18 +2,24 @@
 
 from __future__ import annotations
 
+import os
 from pathlib import Path
 
-import tomllib
-from heatsoak.core.errors import InputError
+from heatsoak.core.case.casefile import read_case_toml
+from heatsoak.core.case.paths import CasePaths
+from heatsoak.core.errors import CaseError, InputError
 from heatsoak.core.mesh.inspect import summarize
 from heatsoak.core.mesh.read import UNITS, read_mesh
-from heatsoak.core.problem.schedule import read_table_csv
+from heatsoak.core.problem.schedule import table_from_text
 from heatsoak.plugin.load import guard, listing
 from heatsoak.plugin.results import actions as results_actions
 from heatsoak.plugin.setup import actions as setup_actions
 from heatsoak.plugin.setup import materials as material_actions
 from heatsoak.plugin.setup.forms import bc_form_from_case
+
+
+#: Subfolder of the work folder holding uploads (an uploaded case may name only files in it).
+UPLOADS = "uploads"
 
 
 def register(panel) -> None:
@@ -88,7 +94,7 @@ def register_choices(panel) -> None:
         state.hs_upload_error = state.hs_mesh_error = ""  # a message about an earlier file no longer applies
         try:
             name, content = listing.unwrap_upload(hs_upload, hint="; put large meshes in the data folder")
-            path = listing.save_upload(panel.work_dir / "uploads", name, content)
+            path = listing.save_upload(panel.work_dir / UPLOADS, name, content)
         except InputError as exc:
             state.hs_upload_error = str(exc)
             return
@@ -121,13 +127,15 @@ def open_mesh(panel, path: Path, keep_forms: bool = False) -> bool:
     """Read ``path`` with the unit and feature angle in the state and show it."""
     state = panel.state
     state.hs_mesh_error = ""
-    try:
+    paths = case_paths(panel, path)
+    try:  # a regular file within the size limit, its XDMF data files in the same folder
+        paths.resolve_mesh("mesh file", Path(path).name)
         mesh = read_mesh(path, state.hs_unit, float(state.hs_feature_angle))
     except (InputError, OSError, ValueError) as exc:
         state.hs_mesh_error = _plain(exc, path)
         return False
-    panel.mesh, panel.mesh_path = mesh, Path(path)
-    panel.case_dir = Path(path).parent
+    panel.mesh, panel.mesh_path, panel.root = mesh, Path(path), paths.root
+    panel.case_dir = Path(path).parent  # the forms' case names the mesh relative to it
     state.hs_mesh_name = Path(path).name
     state.hs_facts = summarize(mesh)
     state.hs_unit_m = UNITS[state.hs_unit]
@@ -144,44 +152,55 @@ def _plain(exc, path) -> str:
     return str(exc).replace(str(Path(path).parent) + "/", "")
 
 
+def case_paths(panel, path) -> CasePaths:
+    """How the files named by the case (or mesh) at ``path`` are found: relative to its folder and
+    confined to the upload folder for uploads, to the data folder for its files, not confined for
+    a file the app was given from elsewhere (the command line's: the user's own permissions)."""
+    uploads = Path(os.path.realpath(panel.work_dir / UPLOADS))
+    root = listing.confinement(path, uploads, panel.data_dir)
+    return CasePaths(Path(path).parent, root, "the uploaded files" if root == uploads else "the data folder")
+
+
 def open_case(panel, path: Path) -> bool:
-    """Read a case file: its mesh, then fill every form from it."""
-    state = panel.state
+    """Read a case file: its mesh, then fill every form from it. Every file the case names is
+    confined as :func:`case_paths` says; messages never quote a refused file's content."""
+    state, name = panel.state, Path(path).name
+    paths = case_paths(panel, path)
     try:
-        data = tomllib.loads(Path(path).read_text(encoding="utf-8"))
-    except (OSError, tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
-        state.hs_mesh_error = f"{Path(path).name}: cannot read the case file ({exc})"
+        data = read_case_toml(path, paths.root)
+    except CaseError as exc:
+        state.hs_mesh_error = _plain(exc, path)
         return False
     mesh_sec = data.get("mesh") if isinstance(data.get("mesh"), dict) else {}
     angle = mesh_sec.get("feature_angle", 30.0)
     if isinstance(angle, bool) or not isinstance(angle, (int, float)):
-        state.hs_mesh_error = f"{Path(path).name}: mesh.feature_angle {angle!r} is not a number of degrees"
+        state.hs_mesh_error = f"{name}: mesh.feature_angle {angle!r} is not a number of degrees"
         return False
     try:
-        mesh_path = (Path(path).parent / str(mesh_sec.get("file", ""))).resolve()
-    except (TypeError, ValueError):
-        mesh_path = None
-    if mesh_path is None or not mesh_path.is_file():
-        state.hs_mesh_error = f"{Path(path).name}: mesh.file {mesh_sec.get('file')!r} not found next to the case"
+        mesh_path = paths.resolve_mesh("mesh.file", mesh_sec.get("file"))
+    except InputError as exc:
+        state.hs_mesh_error = f"{name}: {exc}"
         return False
     previous = state.hs_unit, state.hs_feature_angle, state.hs_unit_from
     state.hs_unit, state.hs_feature_angle = str(mesh_sec.get("unit", "m")), float(angle)
-    state.hs_unit_from = f"from {Path(path).name}" if "unit" in mesh_sec else f"{Path(path).name} names none: metres"
+    state.hs_unit_from = f"from {name}" if "unit" in mesh_sec else f"{name} names none: metres"
     if not open_mesh(panel, mesh_path):
         state.hs_unit, state.hs_feature_angle, state.hs_unit_from = previous  # the open mesh was read with these
-        state.hs_mesh_error = f"{Path(path).name}: {state.hs_mesh_error}"
+        state.hs_mesh_error = f"{name}: {state.hs_mesh_error}"
         return False
-    fill_forms_from_case(panel, data, Path(path).parent)
-    state.hs_case_name = Path(path).name
+    fill_forms_from_case(panel, data, paths)
+    state.hs_case_name = name
     return True
 
 
-def fill_forms_from_case(panel, data: dict, base_dir: Path) -> None:
-    """Set the condition, material, time and probe forms from case data."""
+def fill_forms_from_case(panel, data: dict, paths: CasePaths) -> None:
+    """Set the condition, material, time and probe forms from case data; tables named by file
+    are read through ``paths`` (confined and size-limited)."""
     state = panel.state
 
     def read_table(name):
-        table = read_table_csv(base_dir / name)
+        _, text = paths.read_text("table", name)
+        table = table_from_text(text, str(name))
         return table.times, table.values
 
     bcs = dict(panel.bcs)

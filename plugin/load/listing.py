@@ -127,6 +127,21 @@ def relative(root, path: Path) -> str:
     return "" if rel == "." else rel
 
 
+def confinement(path, *folders) -> Path | None:
+    """The first of ``folders`` that holds ``path`` (after following links), None when none does.
+
+    The files a case names must stay inside the folder its case file came from: the data folder
+    for a listed case, the upload folder for an uploaded one. A case the app itself was given from
+    elsewhere (the command line's file) gets None: it reads with the user's own permissions.
+    """
+    real = Path(os.path.realpath(path))
+    for folder in folders:
+        top = Path(os.path.realpath(folder))
+        if real == top or top in real.parents:
+            return top
+    return None
+
+
 def parent_of(sub: str) -> str:
     """The folder above ``sub`` inside the data folder ("" is the top)."""
     parts = [p for p in str(sub).split("/") if p]
@@ -154,11 +169,17 @@ def unwrap_upload(value, limit: int = MAX_UPLOAD_BYTES, hint: str = "") -> tuple
     if not value:
         return None
     upload = value[0] if isinstance(value, list) else value
-    name = str(upload.get("name", ""))
-    if int(upload.get("size", 0)) > limit:
-        raise InputError(f"upload {name!r}: {int(upload['size']) / 1e6:.1f} MB is over the limit of "
-                         f"{limit / 1e6:.0f} MB{hint}")
-    return name, bytes(upload["content"])
+    if not isinstance(upload, dict):
+        raise InputError("upload: not a file (the browser sent something else)")
+    name = _shown(upload.get("name", ""))
+    size, content = upload.get("size", 0), upload.get("content")
+    if isinstance(size, bool) or not isinstance(size, (int, float)) or not 0 <= size < 2**53:
+        raise InputError(f"upload {name}: its size {_shown(size, 30)} is not a number of bytes")
+    if size > limit:
+        raise InputError(f"upload {name}: {size / 1e6:.1f} MB is over the limit of {limit / 1e6:.0f} MB{hint}")
+    if not isinstance(content, (bytes, bytearray, memoryview)):
+        raise InputError(f"upload {name}: the browser sent no file content")
+    return str(upload.get("name", "")), bytes(content)
 
 
 def save_upload(folder, name: str, content: bytes, limit: int = MAX_UPLOAD_BYTES) -> Path:

@@ -81,7 +81,7 @@ def register(panel) -> None:
         out_dir = panel.work_dir / "runs" / f"run-{run_id:03d}"
         out_dir.mkdir(parents=True, exist_ok=True)
         save_case(portable_case(data, panel.case_dir, out_dir), out_dir / "case.toml")
-        case = case_from_data(data, panel.case_dir, mesh=panel.mesh)
+        case = case_from_data(data, panel.case_dir, mesh=panel.mesh, root=panel.root)
         panel.job = RunJob(case, out_dir)
         state.update({"hs_running": True, "hs_progress": 0.0, "hs_progress_text": "starting...",
                       "hs_run_error": "", "hs_solver_reason": ""})

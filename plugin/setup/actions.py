@@ -289,7 +289,7 @@ def validate(panel) -> list:
     case, form_errors = current_case(panel)
     issues = list(form_errors)
     if not form_errors:
-        issues += check_case_data(case, panel.case_dir, mesh=panel.mesh)
+        issues += check_case_data(case, panel.case_dir, mesh=panel.mesh, root=panel.root)
     state.hs_err = issues_by_field(issues)
     state.hs_run_reason = _name_probes(_reason(issues[0]), state.hs_probes) if issues else ""
     state.hs_groups = group_rows(panel, state.hs_err)

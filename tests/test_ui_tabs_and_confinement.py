@@ -1,16 +1,21 @@
 """Two browser tabs on one ``heatsoak ui``: the first owns the workspace, the second is told and only
 watches (its edits, runs and cancels never reach the server, even when forced past the locked page),
-until it explicitly takes over; the tab it replaces is told and watches from then on.
+until it explicitly takes over; the tab it replaces is told and watches from then on. And in the owning
+tab: cases listed in the data folder that name files outside it are refused without showing them, and
+the case-and-mesh zip holds only the data folder's files.
 
 One server and one browser with two pages serve the tests of this file, in order.
 """
 
 from __future__ import annotations
 
+import shutil
+import zipfile
 from pathlib import Path
 
 import pytest
-from uidriver import DEMO, copy_demo_files, fill, launch_browser, open_section, require_browser, wait_for
+from uidriver import (DEMO, copy_demo_files, fill, launch_browser, open_listed, open_section, require_browser,
+                      wait_for)
 
 pytestmark = pytest.mark.browser
 playwright_api = require_browser()
@@ -18,7 +23,15 @@ playwright_api = require_browser()
 
 @pytest.fixture(scope="module")
 def data_dir(tmp_path_factory) -> Path:
-    return copy_demo_files(tmp_path_factory.mktemp("ui-tabs-data"), (DEMO.name, "platen.msh", "platen_base.csv"))
+    """The demo case, and two cases naming files outside the folder: a mesh by '..', a table by absolute path."""
+    up = tmp_path_factory.mktemp("ui-tabs")
+    (up / "data").mkdir()
+    folder = copy_demo_files(up / "data", (DEMO.name, "platen.msh", "platen_base.csv"))
+    shutil.copy(folder / "platen.msh", up / "outside.msh")
+    text = (folder / DEMO.name).read_text()
+    (folder / "escape.toml").write_text(text.replace('file = "platen.msh"', 'file = "../outside.msh"'))
+    (folder / "passwd.toml").write_text(text.replace('table = "platen_base.csv"', 'table = "/etc/passwd"'))
+    return folder
 
 
 @pytest.fixture(scope="module")
@@ -58,6 +71,32 @@ def test_the_second_tab_is_told_the_workspace_is_in_use_and_the_first_is_not(tab
     assert second.locator("#hs-watch-cover").count() == 1
 
 
+def test_a_listed_case_naming_a_mesh_outside_the_data_folder_is_refused(tabs):
+    first = tabs[0]
+    open_listed(first, "escape.toml")
+    error = first.locator("#hs-mesh-error")
+    error.wait_for(timeout=15_000)
+    assert "mesh.file = '../outside.msh': leads outside the data folder" in error.inner_text()
+    assert "platen.msh" in first.inner_text("#hs-facts")
+
+
+def test_a_listed_case_naming_an_absolute_table_opens_without_reading_or_showing_it(tabs):
+    first = tabs[0]
+    open_listed(first, "passwd.toml")
+    wait_for(lambda: "table = '/etc/passwd': absolute file names are not allowed"
+             in first.inner_text("#hs-mesh-error"), 15, what="the refused table to be named")
+    assert "root:" not in first.content()
+
+
+def test_the_case_and_mesh_zip_holds_only_the_data_folders_files(tabs, data_dir):
+    first = tabs[0]
+    with first.expect_download() as dl:
+        first.click("#hs-export-bundle")
+    with zipfile.ZipFile(dl.value.path()) as z:
+        assert sorted(z.namelist()) == ["case.toml", "platen.msh"]
+        assert z.read("platen.msh") == (data_dir / "platen.msh").read_bytes()
+
+
 def test_edits_and_runs_forced_from_the_watching_tab_never_reach_the_workspace(tabs):
     first, second = tabs
     end = state(first, "hs_t_end")
@@ -80,7 +119,7 @@ def test_cancel_from_the_watching_tab_does_not_stop_the_owners_run(tabs):
     force(second, "() => document.querySelector('#hs-cancel').click()")
     step = lambda: int(first.inner_text("#hs-progress-text").split("step ")[1].split(" ")[0])  # noqa: E731
     before = step()
-    wait_for(lambda: step() > before + 5, 20, what="the run to go on after the watcher's cancel")
+    wait_for(lambda: step() > before + 2, 20, what="the run to go on after the watcher's cancel")
     assert "stopping" not in first.inner_text("#hs-progress-text")
     first.click("#hs-cancel")
     wait_for(lambda: "cancelled" in first.inner_text("#hs-progress-text"), 30, what="the owner's cancel to stop it")
