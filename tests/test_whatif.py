@@ -102,6 +102,12 @@ def test_a_ramped_end_through_whatif_follows_the_i2erfc_solution(tmp_path):
         keep = t >= 25.0
         exact = semi_infinite_ramp(np.full(keep.sum(), x / 1000.0), t[keep], alpha, 1.0)
         assert np.abs(rows[keep, j + 1] - exact).max() < 0.022
+    # and the error estimate covers at least half the difference to the full run of the same case
+    data["boundary"]["xmin"] = {"kind": "temperature", "ramp": {"start": 0, "end": 100, "at": 0, "over": 100}}
+    save_case(data, tmp_path / "ramped.toml")
+    assert main(["run", str(tmp_path / "ramped.toml"), "--out", str(tmp_path / "r"), "--quiet"]) == 0
+    full = np.array(_csv(tmp_path / "r" / "probes.csv")[1:], float)
+    assert _summary(tmp_path / "o")["reduced"]["error_estimate"] >= np.abs(full - rows).max() / 2
 
 
 def test_find_gives_the_shortest_ramp_keeping_a_probe_below_a_limit_confirmed_by_a_full_run(box, tmp_path, capsys):

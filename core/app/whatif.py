@@ -106,6 +106,9 @@ def whatif(case, out_dir, cache_dir=None, field: bool = False, exact_time: bool 
     summary = _summary(case, _ReducedRun(case, model, ans, energy), rec, files, "complete", clock, terr)
     if exact_time:
         summary["time_error_method"] = "none: the answer is exact in time for piecewise-linear schedules"
+    if getattr(case.time, "tolerance", None) is not None:
+        summary["warnings"].append("time.tolerance asks a run for adaptive steps; the reduced answer takes the "
+                                   "fixed steps of time.step (as a run without a tolerance does)")
     summary["reduced"] = {"basis": model.size, "error_estimate": ans.error_estimate, "build_s": build_s,
                           "answer_s": ans.answer_s, "reused": reused, "method": ans.method, "cache": str(path)}
     return files.finish(summary)
