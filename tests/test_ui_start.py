@@ -124,30 +124,46 @@ def test_a_temporary_work_folder_is_removed_and_a_named_one_kept(tmp_path):
     assert "removed when the UI stops" in temp.notice() and "kept in" in named.notice()
 
 
-def test_the_ui_starts_on_a_hostile_folder_and_removes_its_work_folder_when_stopped(tmp_path):
+def start_ui(args, log: Path) -> subprocess.Popen:
+    with open(log, "w") as out:
+        return subprocess.Popen([sys.executable, "-m", "heatsoak.core.app.cli", "ui", *map(str, args), "--server"],
+                                stdout=out, stderr=subprocess.STDOUT, env={**os.environ, "PYTHONUNBUFFERED": "1"})
+
+
+def wait_served(proc, port: int, log: Path) -> None:
+    end = time.time() + 60
+    while time.time() < end:
+        try:
+            with urllib.request.urlopen(f"http://127.0.0.1:{port}/", timeout=2) as r:
+                if r.status == 200:
+                    return
+        except OSError:
+            assert proc.poll() is None, log.read_text()
+            time.sleep(0.3)
+    raise TimeoutError(log.read_text())
+
+
+def test_two_users_processes_run_side_by_side_and_each_cleans_up_its_own_work_folder(tmp_path):
+    """One on a hostile data folder with a temporary work folder, one with its own key and a named work
+    folder: both serve, the temporary folder goes when its UI stops, the named one stays."""
     data = hostile_folder(tmp_path)
     for name in ("platen_warmup.toml", "platen.msh", "platen_base.csv"):
         (data / name).write_bytes((MESHES / name).read_bytes())
-    port = free_port()
-    log = tmp_path / "ui.log"
-    with open(log, "w") as out:
-        proc = subprocess.Popen([sys.executable, "-m", "heatsoak.core.app.cli", "ui", str(data / "platen_warmup.toml"),
-                                 "--server", "--port", str(port)], stdout=out, stderr=subprocess.STDOUT,
-                                env={**os.environ, "PYTHONUNBUFFERED": "1"})
+    (tmp_path / "key").write_text("second-users-key-0123\n")
+    ports, logs = (free_port(), free_port()), (tmp_path / "one.log", tmp_path / "two.log")
+    procs = [start_ui([data / "platen_warmup.toml", "--port", ports[0]], logs[0]),
+             start_ui([DEMO, "--port", ports[1], "--key-file", tmp_path / "key", "--work-dir", tmp_path / "work"],
+                      logs[1])]
     try:
-        end = time.time() + 60
-        while time.time() < end:
-            try:
-                with urllib.request.urlopen(f"http://127.0.0.1:{port}/", timeout=2) as r:
-                    if r.status == 200:
-                        break
-            except OSError:
-                assert proc.poll() is None, log.read_text()
-                time.sleep(0.3)
-        work = Path(re.search(r"go to (\S+), removed", log.read_text()).group(1))
-        assert work.is_dir()
+        for proc, port, log in zip(procs, ports, logs):
+            wait_served(proc, port, log)
+        work = Path(re.search(r"go to (\S+), removed", logs[0].read_text()).group(1))
+        assert work.is_dir() and f"kept in {tmp_path / 'work'}" in logs[1].read_text()
     finally:
-        proc.send_signal(signal.SIGTERM)
-        proc.wait(20)
+        for proc in procs:
+            proc.send_signal(signal.SIGTERM)
+            proc.wait(20)
     assert not work.exists(), "the temporary work folder outlived the UI"
-    assert "traceback" not in log.read_text().lower(), log.read_text()
+    assert (tmp_path / "work").is_dir(), "the named work folder was removed"
+    for log in logs:
+        assert "traceback" not in log.read_text().lower(), log.read_text()
