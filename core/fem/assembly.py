@@ -29,7 +29,7 @@ from functools import cached_property
 import numpy as np
 import scipy.sparse as sp
 from heatsoak.core.fem.pattern import Pattern, build_pattern, element_entries
-from heatsoak.core.mesh.geometry import curved_cells, curved_faces, face_jacobians, isoparametric
+from heatsoak.core.mesh.geometry import curved_cells, curved_faces, face_jacobians, reference_jacobians
 from heatsoak.core.mesh.mesh import Mesh
 
 __all__ = ["BLOCK", "Assembler", "Pattern", "build_pattern"]
@@ -123,6 +123,36 @@ def p1_unit_stiffness(det: np.ndarray, area: np.ndarray) -> np.ndarray:
     return k
 
 
+#: Upper triangle (row, column) of a symmetric 3 x 3 matrix.
+_UPPER = np.triu_indices(3)
+
+
+def _gradient_pairs(dref: np.ndarray) -> np.ndarray:
+    """(nq * 6, nb * nb): row (q, k <= l), column (i, j) holds the (i, j) entry of
+    dref[q, :, k] dref[q, :, l]^T + its transpose for k < l, so a symmetric 3 x 3 matrix
+    per point given by its upper triangle gives sum_q dref_q mid_q dref_q^T in one product."""
+    nq, nb, _ = dref.shape
+    pairs = np.einsum("qik,qjl->qklij", dref, dref)
+    pairs = pairs + np.swapaxes(pairs, 1, 2) * (1 - np.eye(3))[None, :, :, None, None]
+    return pairs[:, _UPPER[0], _UPPER[1]].reshape(nq * 6, nb * nb)
+
+
+def _row_products(a: np.ndarray) -> np.ndarray:
+    """a a^T for a stack of 3 x 3 matrices (..., 3, 3), entry by entry."""
+    out = np.empty(a.shape)
+    for k in range(3):
+        for m in range(k, 3):
+            out[..., k, m] = a[..., k, 0] * a[..., m, 0] + a[..., k, 1] * a[..., m, 1] + a[..., k, 2] * a[..., m, 2]
+            out[..., m, k] = out[..., k, m]
+    return out
+
+
+def _mass(values: np.ndarray, weights: np.ndarray) -> np.ndarray:
+    """sum_q weights[e, q] values[q, i] values[q, j]: (e, nb, nb)."""
+    nq, nb = values.shape
+    return (weights @ (values[:, :, None] * values[:, None, :]).reshape(nq, nb * nb)).reshape(-1, nb, nb)
+
+
 def _per_cell(value, n_cells: int, name: str) -> np.ndarray:
     """Broadcast a scalar or per-cell array to (n_cells,) floats."""
     arr = np.asarray(value, dtype=float)
@@ -179,7 +209,7 @@ class Assembler:
             for s, e in self._blocks():
                 vol[s:e] = np.abs(p1_area_vectors(self._coords, self.mesh.cells[s:e])[0]) / 6.0
             return vol
-        return np.concatenate([self._p2(4, s, e)[2].sum(axis=1) for s, e in self._blocks()])
+        return np.concatenate([self._p2(4, s, e, False)[3].sum(axis=1) for s, e in self._blocks()])
 
     @cached_property
     def _unit_operators(self):
@@ -197,23 +227,25 @@ class Assembler:
         pat = self.pattern
         return pat.cell_operator(kv), pat.cell_operator(vol[:, None] * _P1_MASS[i, j])
 
-    def _p2(self, degree: int, start: int, stop: int):
-        return isoparametric(self.mesh.points, self.mesh.cells[start:stop], degree)
+    def _p2(self, degree: int, start: int, stop: int, inverse: bool = True):
+        return reference_jacobians(self.mesh.points, self.mesh.cells[start:stop], degree, inverse)
 
     @cached_property
     def _curved(self) -> np.ndarray:
         """Sorted indices of the curved quadratic cells."""
         return np.flatnonzero(curved_cells(self.mesh.points, self.mesh.cells))
 
-    def _p2_cells(self, degree: int, s: int, e: int, local) -> np.ndarray:
-        """Per-cell arrays ``local(cell indices, values, grads, weights)`` of quadratic cells s:e,
-        with the degree-``degree`` rule on straight cells and :data:`CURVED_DEGREE` on curved ones."""
-        out = local(np.arange(s, e), *self._p2(degree, s, e))
+    def _p2_cells(self, degree: int, s: int, e: int, local, inverse: bool = True) -> np.ndarray:
+        """Per-cell arrays ``local(cell indices, values, dref, inv, weights)`` (see
+        :func:`~heatsoak.core.mesh.geometry.reference_jacobians`) of quadratic cells s:e, with the
+        degree-``degree`` rule on straight cells and :data:`CURVED_DEGREE` on curved ones."""
+        out = local(np.arange(s, e), *self._p2(degree, s, e, inverse))
         c = self._curved
         curved = c[np.searchsorted(c, s) : np.searchsorted(c, e)]
+        high = max(degree, CURVED_DEGREE)
         for k in range(0, len(curved), CURVED_BLOCK):
             idx = curved[k : k + CURVED_BLOCK]
-            out[idx - s] = local(idx, *isoparametric(self.mesh.points, self.mesh.cells[idx], max(degree, CURVED_DEGREE)))
+            out[idx - s] = local(idx, *reference_jacobians(self.mesh.points, self.mesh.cells[idx], high, inverse))
         return out
 
     @cached_property
@@ -267,10 +299,16 @@ class Assembler:
             det, area = p1_area_vectors(self._coords, self.mesh.cells[s:e])
             k = kap[s:e] if tensor else kap[s:e, None, None] * np.eye(3)
             return np.einsum("ikb,bkl,jlb->bij", area, k, area) / (6.0 * np.abs(det))[:, None, None]
-        def local(idx, _, g, w):
+        def local(idx, _, dref, inv, w):
+            # K_e = sum_q w_q |det J| dref_q J^-1 kappa J^-T dref_q^T: the 3 x 3 middle per point,
+            # then one product with the fixed pairs of reference gradients
             if tensor:
-                return np.einsum("eqik,ekl,eqjl,eq->eij", g, kap[idx], g, w)
-            return np.einsum("eqik,eqjk,eq->eij", g, g, w) * kap[idx, None, None]
+                mid = inv @ kap[idx][:, None] @ np.swapaxes(inv, 2, 3)
+            else:
+                mid = _row_products(inv) * kap[idx, None, None, None]
+            mid *= w[:, :, None, None]
+            nb = dref.shape[1]
+            return (mid[..., _UPPER[0], _UPPER[1]].reshape(len(idx), -1) @ _gradient_pairs(dref)).reshape(-1, nb, nb)
 
         return self._p2_cells(2, s, e, local)
 
@@ -293,7 +331,7 @@ class Assembler:
         out = np.empty((stop - start, 10, 10))
         for s, e in self._blocks(start, stop):
             out[s - start : e - start] = self._p2_cells(
-                4, s, e, lambda idx, v, _, w: np.einsum("qi,qj,eq->eij", v, v, w) * c[idx - start, None, None])
+                4, s, e, lambda idx, v, _, __, w: _mass(v, w * c[idx - start, None]), False)
         return out
 
     def mass(self, rhoc) -> sp.csr_matrix:
@@ -329,7 +367,7 @@ class Assembler:
             area = 0.5 * np.linalg.norm(np.cross(p[:, 1] - p[:, 0], p[:, 2] - p[:, 0]), axis=1)
             local = (np.ones((3, 3)) + np.eye(3)) / 12.0
             return (area * coef)[:, None, None] * local
-        return self._p2_faces(lambda idx, v, w: np.einsum("qi,qj,fq->fij", v, v, w) * coef[idx, None, None])
+        return self._p2_faces(lambda idx, v, w: _mass(v, w * coef[idx, None]))
 
     def boundary_mass(self, h) -> sp.csr_matrix:
         """Convection matrix H [W/K] on this mesh's pattern.
@@ -359,7 +397,7 @@ class Assembler:
             area = 0.5 * np.linalg.norm(np.cross(p[:, 1] - p[:, 0], p[:, 2] - p[:, 0]), axis=1)
             loc = np.repeat((area * q / 3.0)[:, None], 3, axis=1)
         else:
-            loc = self._p2_faces(lambda idx, v, w: np.einsum("qi,fq->fi", v, w) * q[idx, None])
+            loc = self._p2_faces(lambda idx, v, w: (w * q[idx, None]) @ v)
         return np.bincount(f.ravel(), weights=loc.ravel(), minlength=self.mesh.n_nodes)
 
     def source_load(self, f) -> np.ndarray:
@@ -371,5 +409,5 @@ class Assembler:
         else:
             loc = np.empty((ne, 10))
             for s, e in self._blocks():
-                loc[s:e] = self._p2_cells(4, s, e, lambda idx, v, _, w: np.einsum("qi,eq->ei", v, w) * c[idx, None])
+                loc[s:e] = self._p2_cells(4, s, e, lambda idx, v, _, __, w: (w * c[idx, None]) @ v, False)
         return np.bincount(self.mesh.cells.ravel(), weights=loc.ravel(), minlength=self.mesh.n_nodes)

@@ -44,6 +44,70 @@ def p1_gradients(points: np.ndarray, cells: np.ndarray):
     return g, det / 6.0
 
 
+def _cofactors(jac: np.ndarray):
+    """Entries (3 x 3 lists of (...) arrays) of the cofactor matrix of each of a stack of
+    3 x 3 matrices (..., 3, 3), and the determinants."""
+    j = [[jac[..., r, c] for c in range(3)] for r in range(3)]
+    cof = [[j[(r + 1) % 3][(c + 1) % 3] * j[(r + 2) % 3][(c + 2) % 3]
+            - j[(r + 1) % 3][(c + 2) % 3] * j[(r + 2) % 3][(c + 1) % 3] for c in range(3)] for r in range(3)]
+    return cof, j[0][0] * cof[0][0] + j[0][1] * cof[0][1] + j[0][2] * cof[0][2]
+
+
+def det3(jac: np.ndarray) -> np.ndarray:
+    """Determinants of a stack of 3 x 3 matrices (..., 3, 3), by cofactors (faster than LAPACK's loop)."""
+    j = [[jac[..., r, c] for c in range(3)] for r in range(3)]
+    return (j[0][0] * (j[1][1] * j[2][2] - j[1][2] * j[2][1]) + j[0][1] * (j[1][2] * j[2][0] - j[1][0] * j[2][2])
+            + j[0][2] * (j[1][0] * j[2][1] - j[1][1] * j[2][0]))
+
+
+def inverse3(jac: np.ndarray):
+    """Inverses and determinants of a stack of 3 x 3 matrices (..., 3, 3), by cofactors
+    computed entry by entry over the whole stack (batched LAPACK or cross products on
+    small matrices are several times slower).
+
+    Returns
+    -------
+    inv : (..., 3, 3), det : (...)
+    """
+    cof, det = _cofactors(jac)
+    inv = np.empty(jac.shape)
+    scale = 1.0 / det
+    for r in range(3):
+        for c in range(3):
+            np.multiply(cof[c][r], scale, out=inv[..., r, c])
+    return inv, det
+
+
+def reference_jacobians(points: np.ndarray, cells: np.ndarray, degree: int, inverse: bool = True):
+    """The cells' isoparametric maps at the points of the degree-``degree`` rule.
+
+    Parameters
+    ----------
+    points : (n_nodes, 3)
+    cells : (n_cells, nb) int, nb = 4 or 10
+    degree : int
+        Polynomial degree the quadrature rule integrates exactly.
+    inverse : bool
+        False skips the inverse Jacobians (None is returned for them).
+
+    Returns
+    -------
+    values : (nq, nb) shape function values at the quadrature points
+    dref : (nq, nb, 3) their gradients in reference coordinates
+    inv : (n_cells, nq, 3, 3) inverse Jacobians dxi_j / dx_k [1/m], or None
+    weights : (n_cells, nq) quadrature weights times |det J| [m^3]
+    """
+    order = 1 if cells.shape[1] == 4 else 2
+    xi, w = tet_quadrature(degree)
+    values, dref = tet_basis(order, xi)
+    jac = _jacobians(points, cells, dref)
+    if inverse:
+        inv, det = inverse3(jac)
+    else:
+        inv, det = None, det3(jac)
+    return values, dref, inv, np.abs(det) * w[None, :]
+
+
 def isoparametric(points: np.ndarray, cells: np.ndarray, degree: int):
     """Physical shape-function gradients and weights at quadrature points.
 
@@ -60,22 +124,28 @@ def isoparametric(points: np.ndarray, cells: np.ndarray, degree: int):
     grads : (n_cells, nq, nb, 3) physical gradients [1/m]
     weights : (n_cells, nq) quadrature weights times |det J| [m^3]
     """
-    order = 1 if cells.shape[1] == 4 else 2
-    xi, w = tet_quadrature(degree)
-    values, dref = tet_basis(order, xi)
-    x = points[cells]  # (ne, nb, 3)
-    jac = np.einsum("ebi,qbj->eqij", x, dref)  # dx_i / dxi_j
-    det = np.linalg.det(jac)
-    inv = np.linalg.inv(jac)  # dxi / dx
-    grads = np.einsum("qbj,eqjk->eqbk", dref, inv)
-    return values, grads, np.abs(det) * w[None, :]
+    values, dref, inv, weights = reference_jacobians(points, cells, degree)
+    # sum over j of dref[q, b, j] inv[e, q, j, k], as three products (tiny matmuls are slow)
+    grads = dref[None, :, :, 0, None] * inv[:, :, None, 0, :]
+    for j in (1, 2):
+        grads += dref[None, :, :, j, None] * inv[:, :, None, j, :]
+    return values, grads, weights
+
+
+def _jacobians(points: np.ndarray, cells: np.ndarray, dref: np.ndarray) -> np.ndarray:
+    """dx_i / dxi_j, (n_cells, nq, 3, 3), of the cells' maps at the points where ``dref``
+    (nq, nb, 3) holds the reference shape-function gradients: one matrix product."""
+    nq, nb, _ = dref.shape
+    x = np.swapaxes(points[cells], 1, 2)  # (ne, 3, nb)
+    jac = x @ np.swapaxes(dref, 0, 1).reshape(nb, nq * 3)  # (ne, 3, nq * 3)
+    return np.swapaxes(jac.reshape(len(cells), 3, nq, 3), 1, 2)
 
 
 def cell_volumes(points: np.ndarray, cells: np.ndarray) -> np.ndarray:
     """Volumes of P1 or P2 (possibly curved) tetrahedra, (n_cells,) [m^3]."""
     if cells.shape[1] == 4:
         return np.abs(p1_gradients(points, cells)[1])
-    return isoparametric(points, cells, 4)[2].sum(axis=1)
+    return reference_jacobians(points, cells, 4, inverse=False)[3].sum(axis=1)
 
 
 def face_jacobians(points: np.ndarray, faces: np.ndarray, degree: int):
@@ -142,7 +212,7 @@ def sampled_jacobians(points: np.ndarray, cells: np.ndarray, block: int = 2048):
     ratio, where = np.empty(len(cells)), np.empty((len(cells), 3))
     for s in range(0, len(cells), block):
         x = points[cells[s : s + block]]
-        det = np.linalg.det(np.einsum("ebi,qbj->eqij", x, dref))
+        det = det3(_jacobians(points, cells[s : s + block], dref))
         straight = np.linalg.det(np.swapaxes(x[:, 1:4] - x[:, :1], 1, 2))
         rel = det / straight[:, None]
         k = np.argmin(rel, axis=1)
