@@ -11,6 +11,7 @@ import threading
 import time
 from pathlib import Path
 
+import numpy as np
 import pytest
 from box_case import make_case
 from sweep_fixtures import VARY, local_cluster, long_case, read_table, wait_for_processing, worker_pids
@@ -39,7 +40,7 @@ def test_a_2x3_sweep_gives_the_rows_of_six_separate_runs(tmp_path, capsys):
     rows = read_table(out / "sweep.csv")
     assert [(r["boundary.xmax.h"], r["material.right.conductivity"]) for r in rows] == [
         ("5", "20.0"), ("5", "100.0"), ("5", "200.0"), ("50", "20.0"), ("50", "100.0"), ("50", "200.0")]
-    assert {r["status"] for r in rows} == {"complete"}
+    assert {r["status"] for r in rows} == {"complete"} and {r["model"] for r in rows} == {"full"}
     header = list(rows[0])
     assert header[:4] == ["variant", "boundary.xmax.h", "material.right.conductivity", "status"]
     for col in ("core.end", "core.max", "core.crossing", "far.end", "far.max", "far.crossing",
@@ -93,6 +94,33 @@ def test_the_mesh_and_pattern_are_built_once_per_worker(tmp_path, cluster):
     assert len(fresh) <= 2 and len({r.worker for r in fresh}) == len(fresh)  # at most one read per worker process
 
 
+def test_a_schedule_only_sweep_is_answered_by_one_reduced_model_without_the_engine(tmp_path, capsys):
+    case = make_case(tmp_path)
+    out = tmp_path / "s"
+    nowhere = "tcp://127.0.0.1:9"  # nothing listens there: the engine is never asked
+    code = main(["sweep", str(case), "--vary", "boundary.xmin.ramp.over=[30, 90]", "--vary",
+                 "initial.temperature=[20, 40]", "--out", str(out), "--scheduler", nowhere])
+    assert code == 0
+    assert "differ only in schedules" in capsys.readouterr().out
+    rows = read_table(out / "sweep.csv")
+    assert [r["model"] for r in rows] == ["reduced"] * 4 and {r["status"] for r in rows} == {"complete"}
+    for r in rows:  # against the full finite element run of the same variant file
+        alone = tmp_path / "alone" / r["variant"]
+        assert main(["run", str(out / "variants" / f"{r['variant']}.toml"), "--out", str(alone), "--quiet"]) == 0
+        full = np.loadtxt(alone / "probes.csv", delimiter=",", skiprows=1)
+        reduced = np.loadtxt(out / r["variant"] / "probes.csv", delimiter=",", skiprows=1)
+        assert reduced.shape == full.shape
+        np.testing.assert_allclose(reduced, full, rtol=0, atol=1e-4)  # K, on a 160 K rise
+        assert (out / r["variant"] / "temperature.xdmf").is_file()
+
+
+def test_full_runs_every_variant_even_schedule_only_ones(tmp_path, cluster):
+    case = make_case(tmp_path)
+    plan = plan_sweep(case, ["boundary.xmin.ramp.over=[30, 90]"], out_dir=tmp_path / "s")
+    result = run_sweep(plan, tmp_path / "s", scheduler=cluster[0], full=True)
+    assert [(r.model, r.status) for r in result.rows] == [("full", "complete")] * 2
+
+
 def test_stopping_cancels_the_rest_and_writes_the_table_so_far(tmp_path, cluster):
     case = long_case(tmp_path)
     seen = []
@@ -112,7 +140,10 @@ def test_ctrl_c_stops_the_sweep_command_with_the_table_written(tmp_path, cluster
     out = tmp_path / "s"
     cmd = [sys.executable, "-m", "heatsoak.core.app.cli", "sweep", str(case), "--vary",
            "boundary.xmax.h=[5, 10, 20, 40, 80, 160]", "--out", str(out), "--scheduler", cluster[0]]
-    proc = subprocess.Popen(cmd, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=os.environ)
+    # a shell's background job ignores SIGINT and its children inherit that: give the command Python's default
+    default = lambda: signal.signal(signal.SIGINT, signal.SIG_DFL)  # noqa: E731
+    proc = subprocess.Popen(cmd, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=os.environ,
+                            preexec_fn=default)
     first = proc.stdout.readline()
     assert first.startswith("running 6 variant(s) on 2 worker(s)"), first + proc.stderr.read()
     first = proc.stdout.readline()  # the first finished variant
@@ -173,11 +204,14 @@ def test_sweep_needs_something_to_vary(tmp_path, capsys):
 
 @pytest.mark.slow
 def test_the_sweep_bench_times_the_same_variants_both_ways():
-    from heatsoak.core.app.sweep.bench import measure_sweep, sweep_rows
+    from heatsoak.core.app.sweep.bench import measure_reduced, measure_sweep, sweep_rows
 
     record = measure_sweep(workers=1, cubes=3, steps=5)
+    record["reduced"] = measure_reduced(cubes=3, steps=5)
+    assert record["reduced"]["variants"] == 8 and record["reduced"]["statuses"] == ["complete"]
     assert record["variants"] == 8 and record["statuses"] == ["complete"]
     assert record["sequential_s"] > 0 and record["cluster_s"] > 0
     assert record["ratio"] == pytest.approx(record["sequential_s"] / record["cluster_s"])
     rows = sweep_rows(record, lambda s: f"{s:.3g} s")
     assert rows[0][1] == "1 worker, local cluster" and rows[0][4].endswith("x faster")
+    assert rows[2][1] == "one reduced model, this process" and rows[2][2].endswith("variants/s")

@@ -210,10 +210,10 @@ def cmd_bench(args) -> int:
             records.append(r)
     rows = table_rows(records)
     if getattr(args, "sweep", False):
-        from heatsoak.core.app.sweep.bench import measure_sweep, sweep_rows
+        from heatsoak.core.app.sweep.bench import measure_reduced, measure_sweep, sweep_rows
 
         print("measuring sweep ...", file=sys.stderr, flush=True)
-        sweep = measure_sweep()
+        sweep = {**measure_sweep(), "reduced": measure_reduced()}
         rows += sweep_rows(sweep, _t)
     wanted = getattr(args, "reduced", False) or getattr(args, "reduced_only", False)
     reduced = _reduced(sizes, args.steps, where, getattr(args, "pymor", False)) if wanted else []

@@ -69,6 +69,8 @@ def _sweep_args(p):
     p.add_argument("--workers", type=int, help="worker processes of the local cluster (default: the cores)")
     p.add_argument("--scheduler", metavar="ADDRESS", help="tcp://host:port of a running dask scheduler to use instead")
     p.add_argument("--plot", metavar="COLUMN", help="table column plotted against each key (default: first probe's max)")
+    p.add_argument("--full", action="store_true", help="run every variant in full, even when they differ only in "
+                   "schedules (answered by one reduced model on this machine otherwise)")
     p.add_argument("--quiet", action="store_true", help="no line per finished variant")
 
 

@@ -83,15 +83,18 @@ def _write(files: ResultFiles, rec, model, ans, every: int) -> None:
 
 
 def whatif(case, out_dir, cache_dir=None, field: bool = False, exact_time: bool = False, say=None,
-           rebuild: bool = False) -> dict:
+           rebuild: bool = False, model=None) -> dict:
     """Answer ``case`` with its reduced model and write probes.csv, regions.csv, summary.json
     (and the field with ``field``) into ``out_dir``; returns the summary.
 
-    summary["reduced"] = {"basis", "error_estimate" [K], "build_s", "answer_s", "reused", "method", "cache"}.
+    ``model``: a reduced model already at hand that fits ``case`` (a sweep shares one); the cache is then
+    not looked at. summary["reduced"] = {"basis", "error_estimate" [K], "build_s", "answer_s", "reused",
+    "method", "cache"}.
     """
     t0 = _time.perf_counter()
     path = cache_path(case, cache_dir)
-    model, reused = obtain_model(case, path, say, rebuild)
+    given = model is not None
+    model, reused = (model, True) if given else obtain_model(case, path, say, rebuild)
     build_s = float(model.info.get("build_s", 0.0))
     probes = _probe_set(case)
     thresholds = [p.threshold for p in case.probes]
@@ -110,7 +113,7 @@ def whatif(case, out_dir, cache_dir=None, field: bool = False, exact_time: bool 
         summary["warnings"].append("time.tolerance asks a run for adaptive steps; the reduced answer takes the "
                                    "fixed steps of time.step (as a run without a tolerance does)")
     summary["reduced"] = {"basis": model.size, "error_estimate": ans.error_estimate, "build_s": build_s,
-                          "answer_s": ans.answer_s, "reused": reused, "method": ans.method, "cache": str(path)}
+                          "answer_s": ans.answer_s, "reused": reused, "method": ans.method, "cache": None if given else str(path)}
     return files.finish(summary)
 
 

@@ -7,6 +7,10 @@ another in this process, then on a local cluster of ``workers`` processes
 reported apart). Both reuse the mesh and its pattern per process, as a sweep
 does. The ratio is sequential time over cluster time; on a machine whose
 cores are busy with other work it stays well below the number of workers.
+
+A schedule-only sweep of the same case (ramp length and ambient temperature
+varied) is answered by one reduced model on this process: variants per
+second, the model's build reported apart, against full runs one after another.
 """
 
 from __future__ import annotations
@@ -22,7 +26,7 @@ from heatsoak.core.case.casefile import save_case
 from heatsoak.core.mesh.generate import box_mesh
 from heatsoak.core.mesh.write import write_msh22
 
-__all__ = ["measure_sweep", "sweep_rows"]
+__all__ = ["measure_reduced", "measure_sweep", "sweep_rows"]
 
 #: Cubes per side of the bench mesh (6 n^3 tetrahedra) and steps per variant.
 CUBES, STEPS = 12, 300
@@ -86,6 +90,41 @@ def measure_sweep(workers: int = 2, cubes: int = CUBES, steps: int = STEPS) -> d
             "statuses": sorted({r.status for r in rows})}
 
 
+#: A schedule-only sweep of the same case: 4 x 2 = 8 variants.
+VARY_SCHEDULES = ("boundary.xmin.ramp.over=[100, 200, 400, 800]", "boundary.xmax.ambient=[20, 40]")
+
+
+def measure_reduced(cubes: int = CUBES, steps: int = STEPS) -> dict:
+    """Seconds of a schedule-only sweep answered by one reduced model, on this process.
+
+    Returns
+    -------
+    dict
+        variants, build_s (the model, once), answer_s (all variants, files written),
+        variants_per_s (answers only), statuses.
+    """
+    from heatsoak.core.app.sweep.reduced import answer_reduced, schedule_only
+
+    with tempfile.TemporaryDirectory() as tmp:
+        tmp = Path(tmp)
+        case = _bench_case(tmp, cubes, steps)
+        tasks, _ = prepare(plan_sweep(case, VARY_SCHEDULES, out_dir=tmp / "r"), tmp / "r")
+        cases = schedule_only(tasks)
+        if cases is None:
+            raise AssertionError("the bench's schedule-only variants do not share one reduced model")
+        rows, clock = [], {}
+
+        def mark(line: str) -> None:
+            if line.startswith("reduced model:"):
+                clock["built"] = time.perf_counter()
+
+        t0 = time.perf_counter()
+        answer_reduced(tasks, cases, tmp / "r", rows.append, say=mark)
+        end = time.perf_counter()
+    return {"variants": len(tasks), "build_s": clock["built"] - t0, "answer_s": end - clock["built"],
+            "variants_per_s": len(tasks) / (end - clock["built"]), "statuses": sorted({r.status for r in rows})}
+
+
 def sweep_rows(record: dict, fmt) -> list:
     """Rows (size, phase, heatsoak, reference, ratio, peak MB) of the bench table; ``fmt`` formats seconds."""
     size = f"sweep ({record['variants']} variants, {record['cells']} cells, {record['steps']} steps)"
@@ -93,4 +132,9 @@ def sweep_rows(record: dict, fmt) -> list:
         (size, f"{record['workers']} worker{'s' if record['workers'] != 1 else ''}, local cluster", fmt(record["cluster_s"]),
          f"one after another {fmt(record['sequential_s'])}", f"{record['ratio']:.2f}x faster", ""),
         (size, "local cluster start (not in the above)", fmt(record["cluster_start_s"]), "-", "-", ""),
-    ]
+    ] + ([] if "reduced" not in record else [
+        (size.replace("variants", "schedule-only variants"), "one reduced model, this process",
+         f"{record['reduced']['variants_per_s']:.3g} variants/s",
+         f"model built once in {fmt(record['reduced']['build_s'])}; full runs one after another "
+         f"{record['variants'] / record['sequential_s']:.3g} variants/s",
+         f"{record['reduced']['variants_per_s'] * record['sequential_s'] / record['variants']:.0f}x faster", "")])

@@ -80,7 +80,7 @@ def prepare(plan: SweepPlan, out_dir) -> tuple:
 
 
 def run_sweep(plan: SweepPlan, out_dir, workers=None, scheduler=None, on_row=None, should_stop=None,
-              plot: str | None = None, say=None) -> SweepResult:
+              plot: str | None = None, say=None, full: bool = False) -> SweepResult:
     """Run the variants of ``plan`` not already complete in ``out_dir`` and write the table and plots.
 
     Parameters
@@ -99,8 +99,12 @@ def run_sweep(plan: SweepPlan, out_dir, workers=None, scheduler=None, on_row=Non
         The table column plotted against each varied key (default: the first probe's maximum).
     say : callable, optional
         Told in one line what engine runs the variants.
+    full : bool
+        Run every variant in full, even when they differ only in schedules (which a reduced
+        model answers on this machine by default, see :mod:`.reduced`).
     """
     from heatsoak.core.app.sweep.engine import describe, open_engine, run_tasks
+    from heatsoak.core.app.sweep.reduced import answer_reduced, schedule_only
 
     out = Path(out_dir)
     tasks, rows = prepare(plan, out)
@@ -115,6 +119,11 @@ def run_sweep(plan: SweepPlan, out_dir, workers=None, scheduler=None, on_row=Non
             on_row(row)
 
     status = "complete"
+    cases = None if full else schedule_only(tasks)
+    if cases is not None:
+        status = answer_reduced(tasks, cases, out, collect, should_stop, say)
+        tasks = tasks if status is None else []
+        status = status or "complete"
     if tasks:
         with open_engine(workers, scheduler) as client:
             if say is not None:
@@ -154,7 +163,8 @@ def cmd_sweep(args) -> int:
     t0 = time.perf_counter()
     show = _printer(len(plan.variants), args.quiet)
     say = None if args.quiet else (lambda line: print(line, flush=True))
-    result = run_sweep(plan, args.out, args.workers, args.scheduler, on_row=show, plot=args.plot, say=say)
+    result = run_sweep(plan, args.out, args.workers, args.scheduler, on_row=show, plot=args.plot, say=say,
+                       full=args.full)
     counts = {s: sum(r.status == s for r in result.rows) for s in ("complete", "failed", "cancelled")}
     done = ", ".join(f"{n} {s}" for s, n in counts.items() if n)
     again = f" ({len(result.skipped)} already complete, not rerun)" if result.skipped else ""
