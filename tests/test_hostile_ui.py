@@ -197,3 +197,40 @@ def test_a_mesh_swapped_for_a_link_out_of_the_folder_after_opening_is_not_zipped
     finally:
         (data_dir / "platen.msh").unlink()
         shutil.move(moved, data_dir / "platen.msh")
+
+
+class FakeHandler:
+    """Stands in for wslink's handler: its method table, the sending connection, what it publishes."""
+
+    def __init__(self):
+        self.web_app = SimpleNamespace(last_active_client_id=None)
+        self.sent = []
+        self.functionMap = {name: (self, lambda obj, *a, name=name: f"ran {name}") for name in (
+            "application.exit", "application.exit.later", "trame.state.update", "trame.trigger",
+            "viewport.mouse.interaction", "viewport.camera.reset", "viewport.image.push", "trame.state.get")}
+
+    def publish(self, topic, data, client_id=None):
+        self.sent.append((topic, data, client_id))
+
+
+@pytest.mark.parametrize("method, args, owner_runs, watcher_runs", [
+    ("application.exit", (), False, False), ("application.exit.later", (5,), False, False),
+    ("trame.state.update", ([{"key": "hs_t_end", "value": 1}],), True, False),
+    ("trame.trigger", ("hs_export_bundle", [], {}), True, False), ("trame.trigger", ("hs_take_over", [], {}), True, True),
+    ("viewport.mouse.interaction", ({"action": "down"},), True, False), ("viewport.camera.reset", (), True, False),
+    ("viewport.image.push", ({"view": 1},), True, True), ("trame.state.get", (), True, True),
+])
+def test_the_gate_lets_a_watching_tab_only_look_and_nobody_stop_the_server(method, args, owner_runs, watcher_runs):
+    from heatsoak.plugin.session.gate import Gate
+
+    handler = FakeHandler()
+    server = SimpleNamespace(state={"hs_t_end": 600}, add_protocol_to_configure=lambda fn: None)
+    gate = Gate(server, lambda conn, m, a: conn == "owner" or (m == "trame.trigger" and a[0] == "hs_take_over"),
+                on_close=lambda conn: None)
+    gate.connected(SimpleNamespace(publish=handler.publish), "owner", "127.0.0.1")
+    obj, func = handler.functionMap[method]
+    for conn, runs in (("owner", owner_runs), ("watcher", watcher_runs)):
+        handler.web_app.last_active_client_id = conn
+        assert (func(obj, *args) == f"ran {method}") is runs, (conn, method)
+    if method == "trame.state.update":  # the watcher's field is given the workspace's value back
+        assert handler.sent == [("trame.state.topic", {"hs_t_end": 600}, "watcher")]

@@ -200,7 +200,8 @@ def test_seats_first_owns_others_watch_until_they_take_over():
     seats = Seats()
     assert seats.hello("a") == "tab 1" and seats.hello("b", "10.0.0.7") == "tab 2 from 10.0.0.7"
     assert seats.may_edit("a") and not seats.may_edit("b") and not seats.may_edit(None)
-    assert not seats.take_over("stranger") and seats.owner == "a"
-    assert seats.take_over("b") and seats.may_edit("b") and not seats.may_edit("a") and seats.lost == "tab 1"
+    assert seats.take_over("b") == "tab 2 from 10.0.0.7" and seats.may_edit("b") and not seats.may_edit("a")
+    assert seats.lost == "tab 1" and seats.take_over(None) == "" and seats.owner == "b"
     seats.closed("b")
     assert seats.owner is None and seats.hello("c") == "tab 3" and seats.may_edit("c")
+    assert seats.take_over("renewed") == "tab 4" and seats.may_edit("renewed") and seats.lost == "tab 3"

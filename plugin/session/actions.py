@@ -27,10 +27,6 @@ def register(panel) -> None:
     def may_change(conn, method, args) -> bool:
         if method == "trame.trigger" and args and args[0] in WATCHER_TRIGGERS:
             return True
-        if seats.owner is None and conn is not None:  # nobody edits: the first tab to change something owns it
-            seats.hello(conn, gate.origins.get(conn, ""))
-            with state:
-                publish()
         return seats.may_edit(conn)
 
     def on_close(conn):
@@ -52,6 +48,9 @@ def register(panel) -> None:
 
     @server.trigger("hs_take_over")
     def take_over():
-        """The asking tab becomes the owner; the one it replaces watches and is told."""
-        if seats.take_over(gate.sender()):
-            publish()
+        """The asking tab becomes the owner; the one it replaces watches and is told. Returns the
+        tab's name (a tab whose connection was renewed gets a new one)."""
+        conn = gate.sender()
+        label = seats.take_over(conn, gate.origins.get(conn, ""))
+        publish()
+        return label

@@ -32,6 +32,6 @@ def banner(panel) -> None:
                       id="hs-session-text", classes="text-body-2")
             v3.VSpacer()
             v3.VBtn("Take over", size="small", variant="flat", color="#8c3b2e", id="hs-take-over",
-                    click="trigger('hs_take_over')",
+                    click="trigger('hs_take_over').then(v => { hs_me = v || hs_me })",
                     title="Edit this workspace here; the other tab is told and only watches from then on")
     hello()

@@ -33,22 +33,28 @@ class Seats:
 
     def hello(self, conn: str, origin: str = "") -> str:
         """A tab has loaded: name it, and make it the owner when nobody owns the workspace."""
+        label = self._name(conn, origin)
+        if self.owner is None:
+            self.owner = conn
+        return label
+
+    def take_over(self, conn: str | None, origin: str = "") -> str:
+        """The tab on ``conn`` asks for control (a tab that reconnected is named anew); the owner it
+        replaces is remembered in :attr:`lost`. Returns the tab's name ("" for no connection)."""
+        if conn is None:
+            return ""
+        label = self._name(conn, origin)
+        if self.owner not in (None, conn):
+            self.lost = self.labels.get(self.owner, "")
+        self.owner = conn
+        return label
+
+    def _name(self, conn: str, origin: str) -> str:
         if conn not in self.labels:
             self._count += 1
             remote = origin and not is_loopback(origin)
             self.labels[conn] = f"tab {self._count}" + (f" from {origin}" if remote else "")
-        if self.owner is None:
-            self.owner = conn
         return self.labels[conn]
-
-    def take_over(self, conn: str) -> bool:
-        """A tab that said hello asks for control; the owner it replaces is remembered in :attr:`lost`."""
-        if conn not in self.labels:
-            return False
-        if self.owner not in (None, conn):
-            self.lost = self.labels.get(self.owner, "")
-        self.owner = conn
-        return True
 
     def closed(self, conn: str) -> None:
         """A connection went away; the workspace is free when it was the owner's."""
