@@ -31,6 +31,11 @@ def test_a_list_file_gives_named_variants_and_combines_with_vary(tmp_path):
     plan = plan_sweep(case, list_file=listing, out_dir=tmp_path)
     assert [v.name for v in plan.variants] == ["alu", "steel"]
     assert plan.variants[1].data["boundary"]["xmax"]["kind"] == "insulated"  # a plain word needs no quotes
+    listing.write_text("variant,time.step\nplots,5\n../up,10\nvariants,20\n")  # no name leaves or hides in DIR
+    assert [v.name for v in plan_sweep(case, list_file=listing, out_dir=tmp_path).variants] == [
+        "plots_", "up", "variants_"]
+    listing.write_text("variant,material.right.conductivity,boundary.xmax.kind\n"
+                       "alu,200.0,convection\nsteel,15.0,insulated\n")
     both = plan_sweep(case, ["time.step=[5, 10]"], list_file=listing, out_dir=tmp_path)
     assert len(both.variants) == 4 and both.keys == ["material.right.conductivity", "boundary.xmax.kind", "time.step"]
 

@@ -108,11 +108,15 @@ def _slug(value) -> str:
     return re.sub(r"[^A-Za-z0-9.+-]", "", text)[:16] or "x"
 
 
+#: Names in the sweep folder that a variant's results folder must not take.
+RESERVED = ("variants", "plots", "sweep.csv")
+
+
 def _name(index: int, width: int, keys, values, given) -> str:
     if given:
-        safe = re.sub(r"[^A-Za-z0-9._+-]", "_", given).strip("._")
+        safe = re.sub(r"[^A-Za-z0-9._+-]", "_", given).strip("._")[:80]
         if safe:
-            return safe
+            return f"{safe}_" if safe.lower() in RESERVED else safe
     parts = [f"{k.rsplit('.', 1)[-1]}-{_slug(v)}" for k, v in zip(keys, values)]
     return "_".join([f"v{index + 1:0{width}d}", *parts])[:80]
 
