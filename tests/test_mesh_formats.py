@@ -143,3 +143,26 @@ def test_a_file_of_another_format_is_said_to_be_unrecognised(tmp_path):
     (tmp_path / "a.vtk").write_text("$MeshFormat\n4.1 0 8\n$EndMeshFormat\n")
     with pytest.raises(MeshError, match="a.vtk: format not recognised.*begins '\\$MeshFormat"):
         read_mesh(tmp_path / "a.vtk")
+
+
+def test_exodus_element_blocks_are_the_regions_with_their_names(tmp_path):
+    netCDF4 = pytest.importorskip("netCDF4")
+    ref = read_mesh(two_boxes(tmp_path / "two.msh", 4.1, size=0.5))
+    blocks = [("tetra", ref.cells[ref.cell_region == k]) for k in (0, 1)]
+    meshio.write(tmp_path / "two.e", meshio.Mesh(ref.points, blocks))
+    with netCDF4.Dataset(tmp_path / "two.e", "a") as nc:  # meshio writes no block names: add them
+        nc.createDimension("len_name", 33)
+        names = nc.createVariable("eb_names", "S1", ("num_el_blk", "len_name"))
+        names[:] = netCDF4.stringtochar(np.array(["copper", ""], dtype="S33"))
+    mesh = read_mesh(tmp_path / "two.e")
+    assert mesh.region_names[0] == "copper" and mesh.region_names[1].startswith("block-")
+    np.testing.assert_allclose(list(_volumes(mesh).values()), [1.0, 1.0], rtol=1e-12)
+
+
+def test_a_reader_needing_a_missing_package_names_it(tmp_path, monkeypatch):
+    box = meshio.Mesh(np.eye(4)[:, :3], [("tetra", np.array([[0, 1, 2, 3]]))])
+    pytest.importorskip("netCDF4")
+    meshio.write(tmp_path / "one.exo", box)
+    monkeypatch.setitem(sys.modules, "netCDF4", None)
+    with pytest.raises(MeshError, match=r"one.exo.*needs the Python package 'netCDF4'.*pip install netCDF4"):
+        read_mesh(tmp_path / "one.exo")

@@ -17,6 +17,7 @@ from pathlib import Path
 
 import numpy as np
 from heatsoak.core.errors import MeshError
+from heatsoak.core.mesh.exodus import name_blocks
 from heatsoak.core.mesh.gmsh_reader import read_with_gmsh
 from heatsoak.core.mesh.inp_prepass import normalised_deck
 
@@ -63,6 +64,8 @@ def _reader_problem(fmt: str, exc: BaseException) -> str:
         key = exc.args[0] if exc.args else "?"
         key = key.item() if isinstance(key, np.generic) else key
         return f"as {fmt}: it refers to a node, element or set {key!r} that it does not define"
+    if isinstance(exc, ModuleNotFoundError):
+        return f"as {fmt}: meshio needs the Python package {exc.name!r} for it (pip install {exc.name})"
     if fmt == "gmsh" and "Incompatible cell data 'gmsh:physical'" in str(exc):
         # meshio's msh 4 reader fails when some elements are in a physical group and others not
         return ("as gmsh: saved with Mesh.SaveAll=1 beside physical groups, which meshio cannot read; "
@@ -146,7 +149,10 @@ def read_raw(path: Path):
     problems = []
     for fmt in formats:
         try:
-            return _read_inp(path) if fmt == "abaqus" else _meshio_read(fmt, str(path))
+            if fmt == "abaqus":
+                return _read_inp(path)
+            raw, notes = _meshio_read(fmt, str(path))
+            return (name_blocks(raw, path) if fmt == "exodus" else raw), notes
         except MeshError:
             raise
         except (Exception, SystemExit) as exc:  # noqa: BLE001 - each reader fails its own way on a bad file
