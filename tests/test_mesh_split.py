@@ -120,3 +120,44 @@ def test_quadratic_cells_other_than_tetra10_are_refused_with_their_share_of_the_
     meshio.write(tmp_path / "q.msh", meshio.Mesh(points, blocks), file_format="gmsh22", binary=False)
     with pytest.raises(MeshError, match=rf"q.msh: quadratic {kind} 1 cells hold {100 * share:.3g}% of the volume"):
         read_mesh(tmp_path / "q.msh")
+
+
+def _gmsh_hex_and_wedge_box(path):
+    """gmsh's own mesh of two unit cubes side by side: one of hexahedra (transfinite, recombined), one
+    of wedges (a triangulated face extruded in layers); physical volumes and the far end x = 2 named."""
+    gmsh = pytest.importorskip("gmsh")
+    gmsh.initialize(["", "-nopopup"], interruptible=False)
+    try:
+        gmsh.option.setNumber("General.Terminal", 0)
+        geo = gmsh.model.geo
+        p = [geo.addPoint(x, y, 0) for x, y in ((0, 0), (1, 0), (1, 1), (0, 1), (2, 0), (2, 1))]
+        lines = [geo.addLine(p[a], p[b]) for a, b in ((0, 1), (1, 2), (2, 3), (3, 0), (1, 4), (4, 5), (5, 2))]
+        left = geo.addPlaneSurface([geo.addCurveLoop([lines[0], lines[1], lines[2], lines[3]])])
+        right = geo.addPlaneSurface([geo.addCurveLoop([lines[4], lines[5], lines[6], -lines[1]])])
+        for c in lines:
+            geo.mesh.setTransfiniteCurve(c, 4)
+        geo.mesh.setTransfiniteSurface(left)
+        geo.mesh.setRecombine(2, left)
+        out = geo.extrude([(2, left), (2, right)], 0, 0, 1, numElements=[3], recombine=True)
+        geo.synchronize()
+        vols = [t for d, t in out if d == 3]
+        gmsh.model.addPhysicalGroup(3, vols[:1], name="hexes")
+        gmsh.model.addPhysicalGroup(3, vols[1:], name="wedges")
+        end = gmsh.model.getEntitiesInBoundingBox(2 - 1e-6, -1, -1, 2 + 1e-6, 2, 2, dim=2)
+        gmsh.model.addPhysicalGroup(2, [t for _, t in end], name="far-end")
+        gmsh.model.mesh.generate(3)
+        gmsh.write(str(path))
+    finally:
+        gmsh.finalize()
+    return path
+
+
+def test_a_gmsh_mesh_of_hexahedra_and_wedges_is_read_whole(tmp_path):
+    mesh = read_mesh(_gmsh_hex_and_wedge_box(tmp_path / "hw.msh"))
+    vol = dict(zip(mesh.region_names, np.bincount(mesh.cell_region, weights=cell_volumes(mesh.points, mesh.cells))))
+    np.testing.assert_allclose([vol["hexes"], vol["wedges"]], [1.0, 1.0], rtol=1e-12)
+    areas = dict(zip(mesh.group_names, np.bincount(mesh.face_group, weights=face_areas(mesh.points, mesh.faces))))
+    np.testing.assert_allclose(areas["far-end"], 1.0, rtol=1e-12)
+    np.testing.assert_allclose(sum(areas.values()), 10.0, rtol=1e-12)  # no face inside left unmatched
+    assert any(s.startswith("27 hexahedra split into") for s in mesh.splits)
+    assert any("wedges split into" in s for s in mesh.splits)
