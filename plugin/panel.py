@@ -14,6 +14,7 @@ import atexit
 from pathlib import Path
 
 from heatsoak.plugin.export import actions as export_actions
+from heatsoak.plugin.jobs import actions as jobs_actions
 from heatsoak.plugin.load import actions as load_actions
 from heatsoak.plugin.load import guard
 from heatsoak.plugin.pvtrame import view_for
@@ -76,7 +77,7 @@ class HeatPanel:
         self.views = []
         self.state.hs_disclaimer = DISCLAIMER
         server.enable_module({"serve": {"__heatsoak": str(Path(__file__).parent)}, "styles": ["__heatsoak/style.css"]})
-        for module in (session_actions, load_actions, setup_actions, run_actions, results_actions,
+        for module in (jobs_actions, session_actions, load_actions, setup_actions, run_actions, results_actions,
                        results_time_error, export_actions, guard):
             module.register(self)
 

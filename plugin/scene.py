@@ -64,6 +64,19 @@ def volume_grid(mesh) -> pv.UnstructuredGrid:
     return grid
 
 
+def result_style(cmap: str, clim, title: str) -> dict:
+    """``add_mesh`` keywords of a result surface coloured by its "T" array, with its colour bar."""
+    return dict(scalars="T", cmap=cmap, clim=clim, name="result", show_edges=False, pickable=True,
+                scalar_bar_args={"title": title, "vertical": True, "fmt": "%.4g", "position_x": 0.84,
+                                 "position_y": 0.2, "height": 0.6, "color": "#2d3331", "title_font_size": 13,
+                                 "label_font_size": 12})
+
+
+def time_text_style() -> dict:
+    """``add_text`` keywords of the line naming the run and time."""
+    return dict(position="upper_left", font_size=9, color="#2d3331", name="time")
+
+
 class Scene:
     """The objects in one pyvista plotter that the heat panel owns.
 
@@ -99,7 +112,7 @@ class Scene:
         self._actors["groups"].prop.edge_opacity = 0.35
         self.plotter.view_isometric()
         self.plotter.reset_camera()
-        self.time_text = self.plotter.add_text("", position="upper_left", font_size=9, color="#2d3331", name="time")
+        self.time_text = self.plotter.add_text("", **time_text_style())
 
     def _group_rgb(self, selected) -> np.ndarray:
         table = np.array([_rgb(group_colour(i)) for i in range(len(self.mesh.group_names))])
@@ -190,12 +203,7 @@ class Scene:
         shown.point_data["T"] = np.zeros(shown.n_points)
         self.shown, self.shown_nodes = shown, nodes
         self._actors["groups"].visibility = False
-        self._actors["result"] = self.plotter.add_mesh(
-            shown, scalars="T", cmap=cmap, clim=clim, name="result", show_edges=False,
-            pickable=True, scalar_bar_args={"title": title, "vertical": True, "fmt": "%.4g",
-                                           "position_x": 0.84, "position_y": 0.2, "height": 0.6,
-                                           "color": "#2d3331", "title_font_size": 13, "label_font_size": 12},
-        )
+        self._actors["result"] = self.plotter.add_mesh(shown, **result_style(cmap, clim, title))
 
     @staticmethod
     def _clip_nodes(shown) -> np.ndarray:

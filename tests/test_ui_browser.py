@@ -231,8 +231,8 @@ def test_cancel_keeps_the_steps_done(page, server):
     page.wait_for_selector("#hs-run:not([disabled])", timeout=15_000)
     page.click("#hs-run")
     page.wait_for_selector("#hs-cancel")
-    wait_for(lambda: "step" in page.inner_text("#hs-progress-text") and "left" in page.inner_text("#hs-progress-text"),
-             30, what="progress with an estimate of the time left")
+    wait_for(lambda: page.inner_text("#hs-progress-text").startswith("stepping · step")
+             and "s left" in page.inner_text("#hs-progress-text"), 30, what="progress with an estimate of the time left")
     page.click("#hs-cancel")
     wait_for(lambda: "cancelled" in page.inner_text("#hs-progress-text"), 30, what="the run to stop")
     steps = int(page.inner_text("#hs-progress-text").split(": ")[1].split(" steps")[0])

@@ -76,7 +76,11 @@ def _summary(case: Case, stepper, rec: Recorder, files: ResultFiles, status: str
     }
 
 
-def run_case(case: Case, out_dir, progress=None, should_stop=None, assembler=None) -> dict:
+#: Phases of a run, in the order :func:`run_case` reports them.
+RUN_PHASES = ("assembling", "factorising", "stepping", "writing")
+
+
+def run_case(case: Case, out_dir, progress=None, should_stop=None, assembler=None, phase=None) -> dict:
     """Run ``case``, writing result files into ``out_dir`` as the run goes.
 
     Parameters
@@ -90,6 +94,10 @@ def run_case(case: Case, out_dir, progress=None, should_stop=None, assembler=Non
         Polled after every step; when it returns True the run stops cleanly.
     assembler : Assembler, optional
         An assembler of ``case.mesh`` whose pattern and geometry are reused (sweeps).
+    phase : callable, optional
+        Called with the name of each phase as it starts (see :data:`RUN_PHASES`):
+        assembling (probes and operators), factorising (the first step's system),
+        stepping (steps with their output), writing (the last field and the summary).
 
     Returns
     -------
@@ -98,12 +106,17 @@ def run_case(case: Case, out_dir, progress=None, should_stop=None, assembler=Non
         "complete" or "cancelled" (Ctrl-C or ``should_stop``). On any other
         error the files are closed with status "failed" and the error re-raised.
     """
+    phase = phase or (lambda name: None)
     t0 = _time.perf_counter()
+    phase("assembling")
     probes = _probe_set(case)
     rec = Recorder(case.mesh, probes, [p.threshold for p in case.probes])
     settings = dataclasses.replace(case.time, error_estimate=True)
     stepper = ThetaMethod(case.problem, settings, progress=progress, assembler=assembler)
     terr = TimeErrorRecord(probes)
+    phase("factorising")
+    stepper.prepare()
+    phase("stepping")
     files = ResultFiles(out_dir, case.mesh, probes.names)
     clock = {"setup": _time.perf_counter() - t0, "output": 0.0}
     every, pending, status, error = case.output_every, None, "failed", ""
@@ -128,6 +141,7 @@ def run_case(case: Case, out_dir, progress=None, should_stop=None, assembler=Non
         error = f"{type(exc).__name__}: {exc}"
         raise
     finally:
+        phase("writing")
         if pending is not None:
             files.field.write(*pending[:2])
             terr.record(pending[2], True)

@@ -14,9 +14,13 @@ import imageio.v3 as iio
 from heatsoak.core.case.casefile import case_to_toml
 from heatsoak.core.case.paths import CasePaths
 from heatsoak.core.errors import InputError
+from heatsoak.plugin.export.movie import MovieSpec, encode_movie, movie_in_worker
+from heatsoak.plugin.jobs import actions as jobs
 from heatsoak.plugin.load import guard
-from heatsoak.plugin.results import actions as results_actions
+from heatsoak.plugin.scene import DIFFERENCE_CMAP, DIFFERENCE_LABEL, TEMPERATURE_CMAP, UNIT_LABEL
 from heatsoak.plugin.setup import actions as setup_actions
+
+__all__ = ["encode_movie", "register"]
 
 MIME = {"toml": "text/plain", "zip": "application/zip", "csv": "text/csv", "png": "image/png",
         "gif": "image/gif", "mp4": "video/mp4"}
@@ -27,7 +31,8 @@ MAX_MOVIE_FRAMES = 60
 def register(panel) -> None:
     """Triggers of the export buttons."""
     server, state = panel.server, panel.state
-    state.update({"hs_export_error": "", "hs_movie_format": "gif"})
+    state.update({"hs_export_error": "", "hs_movie_format": "gif", "hs_export_job": None})
+    panel.export_job, panel.download = None, None
 
     def attach(data: bytes):
         return server.protocol.addAttachment(data)
@@ -75,10 +80,45 @@ def register(panel) -> None:
 
     @server.trigger("hs_export_movie")
     def export_movie(fmt):
+        """Start making the animation in a worker; the browser saves it when it is done."""
         run = panel.runs.get(state.hs_shown_run)
-        if run is None:
+        if run is None or panel.scene.shown is None:
+            state.hs_export_error = "show a run in the 3D view first"
             return None
-        return attach(animation_bytes(panel, run, fmt))
+        if panel.export_job is not None:
+            state.hs_export_error = "an animation is being made: wait for it or cancel it"
+            return None
+        state.hs_export_error = ""
+        spec = movie_spec(panel, run, fmt)
+        panel.export_job = jobs.start(panel, "export", movie_in_worker, spec,
+                                      show=lambda job: show_export(panel, job),
+                                      done=lambda job: movie_done(panel, job))
+        return None
+
+    @server.trigger("hs_take_download")
+    def take_download():
+        """The file a finished job made, once."""
+        data, panel.download = panel.download, None
+        return None if data is None else attach(data)
+
+
+def show_export(panel, job) -> None:
+    panel.state.hs_export_job = {"id": job.id, "text": jobs.status_text(job),
+                                 "percent": 100.0 * jobs.overall_fraction(job)}
+
+
+def movie_done(panel, job) -> None:
+    """Hand the animation to the browser, or say why there is none."""
+    state = panel.state
+    panel.export_job, state.hs_export_job = None, None
+    frames = (job.result or {}).get("frames", 0)
+    if job.error or not frames:
+        state.hs_export_error = f"animation {job.status}: {job.error or 'no frame was rendered'}"
+        return
+    fmt = job.result["fmt"]
+    panel.download = job.result["data"]
+    state.hs_export_error = "" if job.status == "complete" else f"animation cancelled: kept the first {frames} frames"
+    panel.ctrl.hs_download_ready({"name": f"animation.{fmt}", "mime": MIME[fmt]})
 
 
 def bare_case_toml(data: dict, mesh_path) -> str:
@@ -119,27 +159,20 @@ def screenshot_png(panel) -> bytes:
     return iio.imwrite("<bytes>", image, extension=".png")
 
 
-def animation_bytes(panel, run, fmt: str = "gif") -> bytes:
-    """GIF or MP4 bytes of the shown run, rendered off-screen frame by frame."""
+def movie_spec(panel, run, fmt: str = "gif") -> MovieSpec:
+    """What the animation of the shown run shows: the view's surface, camera and colours."""
     fmt = "mp4" if fmt == "mp4" else "gif"
-    state = panel.state
-    n = len(run.series)
-    picks = sorted({round(x) for x in _even(n, MAX_MOVIE_FRAMES)})
-    keep = state.hs_frame
-    images = []
-    for k in picks:
-        results_actions.draw_frame(panel, k)
-        panel.plotter.render()
-        images.append(panel.plotter.screenshot(return_img=True))
-    results_actions.draw_frame(panel, keep)
-    return encode_movie(images, max(1, int(state.hs_speed or 5)), fmt)
-
-
-def encode_movie(images, fps: int, fmt: str = "gif") -> bytes:
-    """GIF (looping) or MP4 bytes of RGB frames, each (h, w, 3) uint8."""
-    if fmt == "gif":
-        return iio.imwrite("<bytes>", images, extension=".gif", duration=1000 // fps, loop=0)
-    return _mp4_ffmpeg(images, fps)
+    state, plotter = panel.state, panel.plotter
+    diff = panel.runs.get(state.hs_diff_run) if state.hs_diff_run not in (None, run.id) else None
+    picks = sorted({round(x) for x in _even(len(run.series), MAX_MOVIE_FRAMES)})
+    label = f"Run {run.id}" + (f" minus run {diff.id}" if diff else "")
+    clim = tuple(state.hs_fixed_range) if state.hs_range_mode == "fixed" and state.hs_fixed_range else None
+    return MovieSpec(surface=panel.scene.shown.copy(deep=True), nodes=panel.scene.shown_nodes, out_dir=run.out_dir,
+                     picks=picks, diff_dir=None if diff is None else diff.out_dir, clim=clim,
+                     cmap=DIFFERENCE_CMAP if diff else TEMPERATURE_CMAP, title=DIFFERENCE_LABEL if diff else UNIT_LABEL,
+                     label=label, camera=[tuple(v) for v in plotter.camera_position],
+                     window_size=tuple(plotter.window_size), background=plotter.background_color.hex_rgb,
+                     fps=max(1, int(state.hs_speed or 5)), fmt=fmt)
 
 
 def _even(n: int, most: int):
@@ -150,15 +183,3 @@ def _even(n: int, most: int):
         k += step
 
 
-def _mp4_ffmpeg(images, fps: int) -> bytes:
-    """MP4 through imageio's ffmpeg plugin (imageio-ffmpeg ships the binary)."""
-    import tempfile
-
-    import imageio.v2 as iio2
-
-    with tempfile.TemporaryDirectory() as tmp:
-        path = Path(tmp) / "run.mp4"
-        with iio2.get_writer(path, fps=fps, macro_block_size=8) as writer:
-            for image in images:
-                writer.append_data(image)
-        return path.read_bytes()

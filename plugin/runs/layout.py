@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from heatsoak.plugin.export import layout as export_layout
 from heatsoak.plugin.widgets import EDITS_SENT_JS
 from trame.widgets import html
 from trame.widgets import vuetify3 as v3
@@ -71,6 +72,7 @@ def export_buttons(panel) -> None:
                     color="#2f5d50", disabled=("!hs_runs_here",), id="hs-export-movie",
                     click=save_js("`animation.${hs_movie_format}`", "trigger('hs_export_movie', [hs_movie_format])",
                                   "`image/${hs_movie_format}`"))
+        export_layout.job_line(panel)
         html.Div("{{ hs_export_error }}", v_if="hs_export_error", classes="text-caption text-error")
     v3.VAlert(text=("hs_disclaimer",), density="compact", variant="tonal", color="#7a5c12",
               classes="mx-3 mt-2 text-caption", icon="mdi-scale-balance", id="hs-disclaimer")

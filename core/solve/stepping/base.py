@@ -33,7 +33,9 @@ class Progress:
     fraction : float
         t / end.
     elapsed_s, eta_s : float
-        Wall time spent and estimated wall time left [s].
+        Wall time spent stepping and estimated wall time of the steps left [s].
+    total : int
+        Steps the run will take (0 when unknown).
     """
 
     step: int
@@ -42,6 +44,7 @@ class Progress:
     fraction: float
     elapsed_s: float
     eta_s: float
+    total: int = 0
 
 
 def step_times(end: float, dt: float, marks=()) -> np.ndarray:
@@ -159,6 +162,10 @@ class Integrator:
     def initial_state(self) -> np.ndarray:
         raise NotImplementedError
 
+    def prepare(self) -> None:
+        """Build what the first step needs (a factorisation, a preconditioner) ahead of it,
+        so the time of :meth:`steps` is the time of the steps alone. Optional."""
+
     def times(self) -> np.ndarray:
         """End times of the steps (see :func:`step_times`)."""
         raise NotImplementedError
@@ -204,7 +211,7 @@ class Integrator:
                     eta = el * (expected - self.step_count) / self.step_count
                 else:
                     eta = el * (1.0 - frac) / max(frac, 1e-300)
-                self.progress(Progress(self.step_count, self.t, self.end, frac, el, eta))
+                self.progress(Progress(self.step_count, self.t, self.end, frac, el, eta, expected or 0))
             yield self.t, T.copy()
             if self._cancel and self.t < self.end:
                 self.status = "cancelled"

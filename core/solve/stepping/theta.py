@@ -234,6 +234,14 @@ class ThetaMethod(Integrator):
         self._damped = set(damped.tolist())
         return grid
 
+    def prepare(self) -> None:
+        """Factorise (or precondition) the system of the first step now (fixed steps only:
+        an adaptive run picks its first step as it goes)."""
+        grid = self.times() if self.tolerance is None else ()
+        if len(grid) and len(self.ops.free):
+            first = float(grid[0])
+            self._solver(first - self.t, 1.0 if first in self._damped else self.theta)
+
     def _solver(self, dt: float, theta: float):
         # steps of one size differ in their last bits (t_new - t): match cached sizes to 1e-9
         key = next((k for k in self._solvers if k[1] == theta and abs(k[0] - dt) <= 1e-9 * dt), (dt, theta))

@@ -1,0 +1,1 @@
+"""Long work in worker processes: a job runner with phases, progress, estimates and cancel."""
