@@ -51,7 +51,7 @@ def finish(job, timeout: float = 60.0, seen=None):
 
 @pytest.fixture(scope="module")
 def jobs():
-    runner = JobRunner(warm=("heatsoak.plugin.run.work",))
+    runner = JobRunner(warm={"run": ("heatsoak.plugin.run.work",)})
     yield runner
     runner.close()
 

@@ -11,6 +11,7 @@ from __future__ import annotations
 import numpy as np
 from heatsoak.core.mesh.mesh import TET_EDGES
 from heatsoak.core.mesh.shape import TRI_EDGES, tet_basis, tet_quadrature, tri_basis, tri_quadrature
+from heatsoak.core.mesh.topology import signed_volumes
 
 #: A mid-edge node farther than this from its straight edge's midpoint, per edge length,
 #: makes its cell or face curved (round-off in written coordinates stays far below it).
@@ -144,7 +145,7 @@ def _jacobians(points: np.ndarray, cells: np.ndarray, dref: np.ndarray) -> np.nd
 def cell_volumes(points: np.ndarray, cells: np.ndarray) -> np.ndarray:
     """Volumes of P1 or P2 (possibly curved) tetrahedra, (n_cells,) [m^3]."""
     if cells.shape[1] == 4:
-        return np.abs(p1_gradients(points, cells)[1])
+        return np.abs(signed_volumes(points, cells))
     return reference_jacobians(points, cells, 4, inverse=False)[3].sum(axis=1)
 
 

@@ -17,11 +17,13 @@ from heatsoak.core.mesh.topology import signed_volumes
 POOR_SHAPE = 0.1
 
 
-def shape_ratio(points: np.ndarray, cells: np.ndarray) -> np.ndarray:
+def shape_ratio(points: np.ndarray, cells: np.ndarray, volumes: np.ndarray | None = None) -> np.ndarray:
     """Normalised volume-to-edge ratio of the cells' vertex tetrahedra.
 
     ``6 sqrt(2) |V| / l_rms^3`` with ``l_rms`` the root mean square of the six
     edge lengths: 1 for a regular tetrahedron, 0 for a flat one.
+
+    ``volumes`` (n_cells,), when given, are the vertex tetrahedra's volumes, not computed again.
 
     Returns
     -------
@@ -30,7 +32,8 @@ def shape_ratio(points: np.ndarray, cells: np.ndarray) -> np.ndarray:
     p = points[cells[:, :4]]
     edges = p[:, TET_EDGES[:, 1]] - p[:, TET_EDGES[:, 0]]
     l_rms = np.sqrt(np.einsum("eki,eki->e", edges, edges) / 6.0)
-    return 6.0 * np.sqrt(2.0) * np.abs(signed_volumes(points, cells)) / l_rms**3
+    vol = np.abs(signed_volumes(points, cells)) if volumes is None else volumes
+    return 6.0 * np.sqrt(2.0) * vol / l_rms**3
 
 
 def summarize(mesh: Mesh) -> dict:
@@ -51,7 +54,7 @@ def summarize(mesh: Mesh) -> dict:
     reg_vol = np.bincount(mesh.cell_region, weights=vol, minlength=n_reg)
     grp_count = np.bincount(mesh.face_group, minlength=n_grp)
     grp_area = np.bincount(mesh.face_group, weights=area, minlength=n_grp)
-    q = shape_ratio(mesh.points, mesh.cells)
+    q = shape_ratio(mesh.points, mesh.cells, vol if mesh.order == 1 else None)
     return {
         "file": mesh.source,
         "unit": mesh.unit,

@@ -39,11 +39,38 @@ class Grouping:
     notes: tuple = ()
 
 
+def _sorted_runs(keys: np.ndarray):
+    """Stable sort order of the rows of an integer array and where runs of equal rows start.
+
+    Rows of non-negative integers are packed into one int64 when they fit
+    (one 1-D sort); otherwise the columns are sorted together (``lexsort``),
+    both several times faster than ``np.unique(axis=0)``, which compares rows
+    as raw bytes.
+
+    Returns
+    -------
+    order : (n,) row indices in sorted order, equal rows in their original order
+    starts : (n_unique,) positions in ``order`` where a new distinct row begins
+    """
+    keys = np.asarray(keys, dtype=np.int64)
+    n, k = keys.shape
+    if n == 0:
+        return np.empty(0, dtype=np.int64), np.empty(0, dtype=np.int64)
+    base = int(keys.max()) + 1
+    if keys.min() >= 0 and k * np.log2(base) < 62:
+        packed = np.zeros(n, dtype=np.int64)
+        for j in range(k):
+            packed = packed * base + keys[:, j]
+        order = np.argsort(packed, kind="stable")
+        new = np.diff(packed[order]) != 0
+    else:
+        order = np.lexsort(keys.T[::-1])
+        new = (np.diff(keys[order], axis=0) != 0).any(axis=1)
+    return order, np.flatnonzero(np.concatenate([[True], new]))
+
+
 def unique_rows(keys: np.ndarray):
     """First index, inverse and count of the distinct rows of an integer array.
-
-    Rows of non-negative integers are packed into one int64 when they fit, which
-    sorts about ten times faster than ``np.unique(axis=0)``.
 
     Returns
     -------
@@ -51,21 +78,11 @@ def unique_rows(keys: np.ndarray):
     inverse : (n,) index of each row's distinct value
     counts : (n_unique,) occurrences of each distinct row
     """
-    keys = np.asarray(keys, dtype=np.int64)
-    n, k = keys.shape
-    base = int(keys.max()) + 1 if n else 1
-    if n and keys.min() >= 0 and k * np.log2(base) < 62:
-        packed = np.zeros(n, dtype=np.int64)
-        for j in range(k):
-            packed = packed * base + keys[:, j]
-        _, first, inverse, counts = np.unique(
-            packed, return_index=True, return_inverse=True, return_counts=True
-        )
-    else:
-        _, first, inverse, counts = np.unique(
-            keys, axis=0, return_index=True, return_inverse=True, return_counts=True
-        )
-    return first, inverse.ravel(), counts
+    order, starts = _sorted_runs(keys)
+    counts = np.diff(np.append(starts, len(order)))
+    inverse = np.empty(len(order), dtype=np.int64)
+    inverse[order] = np.repeat(np.arange(len(starts)), counts)
+    return order[starts], inverse, counts
 
 
 def pair_rows(keys: np.ndarray):
@@ -75,13 +92,15 @@ def pair_rows(keys: np.ndarray):
     -------
     inverse : (n,) index of each row's unique value
     count : (n,) how many rows share each row's value
-    pairs : (m, 2) indices of the rows whose value occurs exactly twice
+    pairs : (m, 2) indices of the rows whose value occurs exactly twice, in the
+        order of their value, each pair in row order
     """
-    _, inverse, counts = unique_rows(keys)
-    count = counts[inverse]
-    twice = np.flatnonzero(count == 2)
-    order = twice[np.argsort(inverse[twice], kind="stable")]
-    return inverse, count, order.reshape(-1, 2)
+    order, starts = _sorted_runs(keys)
+    counts = np.diff(np.append(starts, len(order)))
+    inverse = np.empty(len(order), dtype=np.int64)
+    inverse[order] = np.repeat(np.arange(len(starts)), counts)
+    two = starts[counts == 2]
+    return inverse, counts[inverse], np.stack([order[two], order[two + 1]], axis=1)
 
 
 def interface_faces(local_faces: np.ndarray, pairs: np.ndarray, cell_region: np.ndarray) -> np.ndarray:

@@ -18,9 +18,12 @@ def signed_volumes(points: np.ndarray, cells: np.ndarray) -> np.ndarray:
     -------
     (n_cells,) array, positive for positively oriented cells [unit**3].
     """
-    p = points[cells[:, :4]]
-    a, b, c = p[:, 1] - p[:, 0], p[:, 2] - p[:, 0], p[:, 3] - p[:, 0]
-    return np.einsum("ij,ij->i", a, np.cross(b, c)) / 6.0
+    x0 = points[cells[:, 0]]
+    a, b, c = (points[cells[:, i]] - x0 for i in (1, 2, 3))
+    # the triple product a . (b x c) written out: np.cross on (n, 3) arrays is several times slower
+    return (a[:, 0] * (b[:, 1] * c[:, 2] - b[:, 2] * c[:, 1])
+            + a[:, 1] * (b[:, 2] * c[:, 0] - b[:, 0] * c[:, 2])
+            + a[:, 2] * (b[:, 0] * c[:, 1] - b[:, 1] * c[:, 0])) / 6.0
 
 
 def reorient(cells: np.ndarray, negative: np.ndarray) -> np.ndarray:

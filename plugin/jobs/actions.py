@@ -15,8 +15,8 @@ from heatsoak.plugin.jobs.pool import JobRunner
 
 #: Seconds between two looks at the running jobs.
 POLL_S = 0.25
-#: Modules the spare worker imports while it waits (a run, and an animation's rendering).
-WARM = ("heatsoak.plugin.run.work", "heatsoak.plugin.export.movie")
+#: Modules the spare worker of each kind of job imports while it waits.
+WARM = {"run": ("heatsoak.plugin.run.work",), "export": ("heatsoak.plugin.export.movie",)}
 #: What a phase's items are called in the progress line.
 ITEMS = {"stepping": "step", "rendering": "frame"}
 

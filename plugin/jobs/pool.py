@@ -6,7 +6,7 @@ heavy modules already imported, so a job does not pay for Python's start-up.
 The work function reports phases and progress through a :class:`Reporter`;
 the UI reads them with :meth:`Job.poll` and never blocks on the worker.
 
->>> jobs = JobRunner(warm=("numpy",))                       # doctest: +SKIP
+>>> jobs = JobRunner(warm={"run": ("scipy.sparse",)})       # doctest: +SKIP
 >>> job = jobs.submit("run", work_function, arg1, arg2)     # doctest: +SKIP
 >>> job.poll(); job.phase, job.fraction, job.eta_s           # doctest: +SKIP
 """
@@ -216,29 +216,33 @@ class Job:
 
 
 class JobRunner:
-    """Starts jobs in worker processes, one spare process kept started and warm.
+    """Starts jobs in worker processes, one spare process per kind of job kept started and warm.
 
     Parameters
     ----------
-    warm : tuple of str
-        Modules the spare process imports while it waits.
+    warm : dict of str to tuple of str
+        For each kind of job, the modules its spare process imports while it waits
+        (a run needs scipy, an animation VTK: each kind gets its own spare).
     spare : bool
-        Keep one process started ahead (False in tests that count processes).
+        Keep spare processes started ahead.
     """
 
-    def __init__(self, warm=(), spare: bool = True):
-        self.warm, self.keep_spare = tuple(warm), spare
+    def __init__(self, warm=None, spare: bool = True):
+        self.warm, self.keep_spare = dict(warm or {}), spare
         self.jobs: dict[int, Job] = {}
         self._next = 1
-        self._spare = Worker(self.warm) if spare else None
+        self._spares = {kind: Worker(mods) for kind, mods in self.warm.items()} if spare else {}
 
     def submit(self, kind: str, fn, *args, on_done=None) -> Job:
         """Run ``fn(reporter, *args)`` in a worker; ``fn`` must be a module-level function.
 
         ``on_done(job)`` is called from :meth:`poll` (in the UI's process) when the job ends.
         """
-        worker = self._spare if self._spare is not None and self._spare.process.is_alive() else Worker(self.warm)
-        self._spare = Worker(self.warm) if self.keep_spare else None
+        worker = self._spares.pop(kind, None)
+        if worker is None or not worker.process.is_alive():
+            worker = Worker(self.warm.get(kind, ()))
+        if self.keep_spare and kind in self.warm:
+            self._spares[kind] = Worker(self.warm[kind])
         worker.inbox.put((fn, args))
         job = Job(self._next, kind, worker, on_done=on_done)
         self._next += 1
@@ -257,7 +261,7 @@ class JobRunner:
         for job in self.running():
             job.status, job.error = "cancelled", "closed"
             job.worker.stop()
-        if self._spare is not None:
-            self._spare.inbox.put(None)
-            self._spare.stop()
-            self._spare = None
+        for spare in self._spares.values():
+            spare.inbox.put(None)
+            spare.stop()
+        self._spares = {}
