@@ -134,3 +134,18 @@ def test_a_surface_on_hexahedron_faces_names_the_split_triangles(tmp_path):
     areas = dict(zip(mesh.group_names, np.bincount(mesh.face_group, weights=face_areas(mesh.points, mesh.faces))))
     np.testing.assert_allclose(areas["base"], 1.0, rtol=1e-12)
     np.testing.assert_allclose(sum(areas.values()), 6.0, rtol=1e-12)
+
+
+def test_a_file_that_is_no_deck_is_said_to_be_unrecognised(tmp_path):
+    (tmp_path / "photo.inp").write_bytes(b"\x89PNG\r\n\x1a\n\x00\x00binary")
+    with pytest.raises(MeshError, match="photo.inp: format not recognised: a deck should hold"):
+        read_mesh(tmp_path / "photo.inp")
+
+
+def test_two_parts_numbered_alike_are_refused_not_mixed_up(tmp_path):
+    box = box_mesh((1, 1, 1))
+    part = ["*Node", *_nodes(box.points), "*Element, type=C3D4", *_rows(1, box.cells)]
+    lines = ["*Part, name=A", *part, "*End Part", "*Part, name=B", *part, "*End Part"]
+    (tmp_path / "parts.inp").write_text("\n".join(lines) + "\n")
+    with pytest.raises(MeshError, match="parts.inp: 8 node numbers are defined more than once .*2 parts"):
+        read_mesh(tmp_path / "parts.inp")

@@ -197,14 +197,28 @@ def parse(path: Path) -> _Deck:
         elif keyword == "*SURFACE":
             _surface_block(deck, params, data)
 
+    parts = 0
     for line in _lines(path):
         if line.startswith("*"):
             close()
             keyword, params, data = line.split(",")[0].strip().upper(), _params(line), []
+            parts += keyword == "*PART"
         else:
             data.append(line)
     close()
+    _check_node_numbers(deck, parts, path)
     return deck
+
+
+def _check_node_numbers(deck: _Deck, parts: int, path: Path) -> None:
+    """MeshError when node numbers repeat: several parts numbered alike, which one flat mesh cannot hold."""
+    numbers = [line.split(",", 1)[0].strip() for line in deck.nodes]
+    unique, counts = np.unique(numbers, return_counts=True)
+    if (counts > 1).any():
+        again = unique[counts > 1]
+        why = f"the deck has {parts} parts numbered alike; " if parts > 1 else ""
+        raise MeshError(f"{path}: {len(again)} node numbers are defined more than once (first: {again[0]}): {why}"
+                        "export the model as one mesh with one numbering (a flat deck without parts)")
 
 
 def normalised_deck(path: Path) -> tuple:
@@ -216,6 +230,9 @@ def normalised_deck(path: Path) -> tuple:
     notes : tuple of str
     """
     deck = parse(path)
+    if not deck.nodes and not deck.elements and not deck.skipped:
+        raise MeshError(f"{path}: format not recognised: a deck should hold *NODE and *ELEMENT keyword lines, "
+                        "this file holds neither")
     _surface_elements(deck)
     out = ["*NODE", *deck.nodes]
     for kind, rows in deck.elements:
