@@ -26,11 +26,11 @@ from __future__ import annotations
 
 import os
 import stat
-import xml.etree.ElementTree as ET
 from dataclasses import dataclass
 from pathlib import Path
 
 from heatsoak.core.errors import PathError
+from heatsoak.core.mesh.packed import xdmf_heavy_files
 
 #: Largest table (CSV) file read [bytes]; a million rows of "time, value" take about 25 MB.
 MAX_TABLE_BYTES = 64 * 2**20
@@ -187,25 +187,3 @@ class CasePaths:
             inner.resolve("heavy data", file)
         except PathError as exc:
             raise self._error(key, name, f"its XDMF names the data file {file!r}, which {exc.detail}") from None
-
-
-def xdmf_heavy_files(path) -> list[tuple[str, str]]:
-    """(format, file name) of every HDF5 or binary data file an XDMF file names, in order, once each.
-
-    An XDMF file that is not valid XML gives no names (its reader reports it).
-    """
-    try:
-        tree = ET.parse(path)  # noqa: S314 - expat refuses external entities; sizes bounded by MAX_MESH_BYTES
-    except (ET.ParseError, OSError):
-        return []
-    out = {}
-    for item in tree.iter():
-        if not str(item.tag).endswith("DataItem"):
-            continue
-        fmt = item.get("Format", "XML")
-        text = (item.text or "").strip()
-        if fmt == "HDF" and text:
-            out[(fmt, text.split(":", 1)[0])] = None  # as meshio splits "file.h5:/path"
-        elif fmt == "Binary" and text:
-            out[(fmt, text)] = None
-    return list(out)

@@ -20,6 +20,7 @@ from heatsoak.core.errors import MeshError
 from heatsoak.core.mesh.exodus import name_blocks
 from heatsoak.core.mesh.gmsh_reader import read_with_gmsh
 from heatsoak.core.mesh.inp_prepass import normalised_deck
+from heatsoak.core.mesh.packed import check_unpacked_size
 
 #: How files of a meshio format begin (bytes after leading white space), for telling a
 #: file of another kind from a broken one. Formats not listed are not judged.
@@ -139,6 +140,7 @@ def read_raw(path: Path):
 
     path = Path(path)
     _check_readable(path)
+    check_unpacked_size(path)  # a zip bomb is refused before a reader unpacks it
     formats = formats_of(path)
     if not formats:
         known = ", ".join(sorted(meshio.extension_to_filetypes))
