@@ -166,3 +166,10 @@ def test_a_reader_needing_a_missing_package_names_it(tmp_path, monkeypatch):
     monkeypatch.setitem(sys.modules, "netCDF4", None)
     with pytest.raises(MeshError, match=r"one.exo.*needs the Python package 'netCDF4'.*pip install netCDF4"):
         read_mesh(tmp_path / "one.exo")
+
+
+def test_a_partition_array_comes_after_a_zone_array_though_it_sorts_first(msh_dir, tmp_path):
+    ref = _reference(msh_dir)
+    data = {"zone": [ref.cell_region + 3], "partition": [np.arange(ref.n_cells) % 2]}
+    meshio.write(tmp_path / "p.vtu", meshio.Mesh(ref.points, [("tetra", ref.cells)], cell_data=data))
+    assert read_mesh(tmp_path / "p.vtu").region_names == ("region-3", "region-4")

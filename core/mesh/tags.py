@@ -6,8 +6,9 @@ what the arrays mean, not by their names' alphabetical order: MED groups (meshio
 ``gmsh:physical`` (names from ``field_data``), ``medit:ref``, ``CellEntityIds``;
 other integer arrays whose name says "physical"; other integer arrays with few
 distinct values; arrays of CAD entity numbers (``gmsh:geometrical`` or a name
-saying "geometrical", "entity", "elementary") last, as they split a named side
-into its CAD faces. Float arrays of whole numbers count as integer. Without
+saying "geometrical", "entity", "elementary") and of parallel partitions ("partition",
+"ghost", "processor", "mpi") last, as they split a named side into pieces that mean
+nothing to the user. Float arrays of whole numbers count as integer. Without
 arrays, named cell sets (Abaqus element sets, ...); the set names meshio joins
 into one array's name when it writes sets to VTU, XDMF, ... are read back.
 Tags without a name are called "region-<tag>" / "group-<tag>".
@@ -43,7 +44,7 @@ TAG_KEYS = ("gmsh:physical", "medit:ref", "CellEntityIds")
 LAST_TAG_KEYS = ("gmsh:geometrical",)
 #: Words in an array name saying it holds groups (tried first) or CAD entities (tried last).
 PHYSICAL_WORDS = ("phys",)
-ENTITY_WORDS = ("geom", "entit", "elementar")
+ENTITY_WORDS = ("geom", "entit", "elementar", "partition", "ghost", "processor", "mpi")
 MAX_TAGS = 100
 #: Arrays whose sign is an orientation, not a different group.
 SIGNED_KEYS = ("gmsh:physical", "gmsh:geometrical")
