@@ -173,3 +173,16 @@ def test_a_partition_array_comes_after_a_zone_array_though_it_sorts_first(msh_di
     data = {"zone": [ref.cell_region + 3], "partition": [np.arange(ref.n_cells) % 2]}
     meshio.write(tmp_path / "p.vtu", meshio.Mesh(ref.points, [("tetra", ref.cells)], cell_data=data))
     assert read_mesh(tmp_path / "p.vtu").region_names == ("region-3", "region-4")
+
+
+@pytest.mark.parametrize(("version", "node"), [(2.2, "0"), (2.2, "-3"), (4.1, "0"), (4.1, "-7")])
+def test_an_msh_element_on_node_zero_or_below_is_named_not_called_zero_volume(tmp_path, version, node):
+    path = two_boxes(tmp_path / "box.msh", version, size=0.8)
+    lines = path.read_text().splitlines()
+    last = lines.index("$EndElements") - 1  # the last element: a tetrahedron (gmsh writes volumes last)
+    parts = lines[last].split()
+    parts[-2] = node
+    lines[last] = " ".join(parts)
+    path.write_text("\n".join(lines) + "\n")
+    with pytest.raises(MeshError, match=f"box.msh: element {parts[0]} refers to node {node}: node numbers start at 1"):
+        read_mesh(path)

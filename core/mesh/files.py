@@ -20,6 +20,7 @@ from heatsoak.core.errors import MeshError
 from heatsoak.core.mesh.exodus import name_blocks
 from heatsoak.core.mesh.gmsh_reader import read_with_gmsh
 from heatsoak.core.mesh.inp_prepass import normalised_deck
+from heatsoak.core.mesh.msh_check import bad_node_reference
 from heatsoak.core.mesh.packed import check_unpacked_size
 
 #: How files of a meshio format begin (bytes after leading white space), for telling a
@@ -127,6 +128,14 @@ def _read_inp(path: Path):
     return raw, (*notes, *more)
 
 
+def _check_msh_nodes(path: Path) -> None:
+    """MeshError for an element of an ASCII MSH file referring to a node number below 1."""
+    bad = bad_node_reference(path)
+    if bad:
+        raise MeshError(f"{path}: element {bad[0]} refers to node {bad[1]}: node numbers start at 1, "
+                        "so it cannot be negative or zero (a broken or hand-edited file)")
+
+
 def read_raw(path: Path):
     """The mesh at ``path`` in meshio's layout, and notes (what readers printed or skipped).
 
@@ -154,6 +163,8 @@ def read_raw(path: Path):
             if fmt == "abaqus":
                 return _read_inp(path)
             raw, notes = _meshio_read(fmt, str(path))
+            if fmt == "gmsh":
+                _check_msh_nodes(path)
             return (name_blocks(raw, path) if fmt == "exodus" else raw), notes
         except MeshError:
             raise

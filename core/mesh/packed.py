@@ -22,7 +22,6 @@ import xml.etree.ElementTree as ET
 from pathlib import Path
 
 import numpy as np
-
 from heatsoak.core.errors import MeshError
 
 #: Most bytes a mesh file's compressed data may unpack to (the same bound as a mesh file's size).

@@ -1,0 +1,82 @@
+"""Node references of an ASCII gmsh MSH file (2.2 or 4.x) that meshio reads silently wrong.
+
+gmsh numbers nodes from 1. meshio maps an element's node numbers through a table
+indexed by number - 1, so a node number 0 or below wraps around to some other node
+instead of failing: the element then has the wrong shape (often zero volume), and
+the message would name the symptom, not the cause. This scans the ``$Elements``
+section, block by block (4.x) or by line length (2.2), with numpy.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+
+
+def _node_counts() -> np.ndarray:
+    """Number of nodes of each gmsh element type (index: type), from meshio's tables; 0 where unknown."""
+    try:
+        from meshio._common import num_nodes_per_cell
+        from meshio.gmsh.common import _gmsh_to_meshio_type
+    except ImportError:
+        return np.zeros(1, dtype=np.int64)
+    known = {t: num_nodes_per_cell[m] for t, m in _gmsh_to_meshio_type.items() if m in num_nodes_per_cell}
+    table = np.zeros(max(known) + 1, dtype=np.int64)
+    table[list(known)] = list(known.values())
+    return table
+
+
+def _section(text: bytes, name: bytes) -> list:
+    start = text.find(b"$" + name)
+    end = text.find(b"$End" + name, start)
+    if start < 0 or end < 0:
+        return []
+    return text[start:end].splitlines()[1:]
+
+
+def _bad_v2(lines: list, counts: np.ndarray):
+    """(element number, node number) of the first element line referring to a node <= 0, or None."""
+    rows = [line.split() for line in lines[1:]]
+    for width in sorted({len(r) for r in rows}):
+        block = np.array([r for r in rows if len(r) == width], dtype=np.int64)
+        k = counts[np.clip(block[:, 1], 0, len(counts) - 1)]  # nodes per element, by its type
+        nodes = np.arange(width)[None, :] >= width - k[:, None]
+        bad = nodes & (block <= 0)
+        if bad.any():
+            row = int(np.argmax(bad.any(axis=1)))
+            return int(block[row, 0]), int(block[row][bad[row]][0])
+    return None
+
+
+def _bad_v4(lines: list):
+    """As :func:`_bad_v2` for MSH 4.x: blocks of elements of one type after a 4-number header."""
+    at = 1
+    while at < len(lines):
+        header = lines[at].split()
+        if len(header) != 4:
+            return None
+        n = int(header[3])
+        block = np.array(b" ".join(lines[at + 1 : at + 1 + n]).split(), dtype=np.int64).reshape(n, -1)
+        bad = block[:, 1:] <= 0
+        if bad.any():
+            row = int(np.argmax(bad.any(axis=1)))
+            return int(block[row, 0]), int(block[row, 1:][bad[row]][0])
+        at += 1 + n
+    return None
+
+
+def bad_node_reference(path: Path):
+    """(element number, node number) of the first element of an ASCII MSH file that refers to a
+    node number below 1, or None (also for binary files and formats this does not know)."""
+    text = Path(path).read_bytes()
+    fmt = _section(text, b"MeshFormat")
+    if not fmt or len(fmt[0].split()) < 2 or fmt[0].split()[1] != b"0":  # version, file type (0: ASCII)
+        return None
+    lines = _section(text, b"Elements")
+    try:
+        if fmt[0].startswith(b"4"):
+            return _bad_v4(lines)
+        return _bad_v2(lines, _node_counts()) if fmt[0].startswith(b"2") else None
+    except ValueError:  # a malformed section: the reader has said what is wrong with it
+        return None
