@@ -69,5 +69,10 @@ class SolverError(HeatsoakError):
     """A linear solve that failed (breakdown, no convergence)."""
 
 
+class ResultsError(HeatsoakError):
+    """A result file that cannot be written (disk full, no permission, a write error): the run
+    stops, and what was written before stays readable."""
+
+
 class Cancelled(HeatsoakError):
     """A run stopped by the user between two steps."""

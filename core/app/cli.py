@@ -1,7 +1,8 @@
 """The ``heatsoak`` command: one entry point, one subcommand per job.
 
 Each subcommand's work lives in its own module; this file only parses the
-command line and turns errors into exit codes: 0 ok, 2 bad input, 1 failure.
+command line and turns errors into exit codes: 0 ok, 2 bad input, 1 failure,
+130 interrupted.
 """
 
 from __future__ import annotations
@@ -116,6 +117,9 @@ def _whatif_args(p):
                    help="what must hold: 'max(P) < X', 'min(P) > X', 'maxdiff(P, Q) < X' or 'reach(P, V) < TIME'")
 
 
+#: Exit code after Ctrl-C (128 + SIGINT, common practice, no source).
+EXIT_INTERRUPTED = 130
+
 _ARGUMENTS = {"inspect": _inspect_args, "check": _check_args, "run": _run_args, "sweep": _sweep_args,
               "whatif": _whatif_args, "bench": _bench_args, "ui": _ui_args}
 
@@ -138,9 +142,9 @@ def main(argv=None) -> int:
     except BrokenPipeError:  # output piped into a pager or head that closed early
         sys.stderr.close()
         return 0
-    except KeyboardInterrupt:
+    except KeyboardInterrupt:  # before a run had result files to close (set-up, checking): nothing to keep
         print(f"heatsoak {args.command}: interrupted", file=sys.stderr)
-        return 1
+        return EXIT_INTERRUPTED
 
 
 if __name__ == "__main__":

@@ -3,14 +3,17 @@
 from __future__ import annotations
 
 import dataclasses
+import signal
 import sys
+import threading
 import time as _time
+from contextlib import contextmanager
 from pathlib import Path
 
 import numpy as np
 from heatsoak.core.case.casefile import Case, check_case, load_case, stability_problem
 from heatsoak.core.case.paths import describe_limits
-from heatsoak.core.errors import CaseError
+from heatsoak.core.errors import CaseError, HeatsoakError, ResultsError
 from heatsoak.core.results.probes import ProbeSet
 from heatsoak.core.results.record import Recorder, bound_warnings
 from heatsoak.core.results.time_error import TimeErrorRecord, margin_warnings
@@ -76,6 +79,33 @@ def _summary(case: Case, stepper, rec: Recorder, files: ResultFiles, status: str
     }
 
 
+@contextmanager
+def _interrupts_deferred():
+    """Hold Ctrl-C while a step is written, so every result file ends on the same step; the
+    interrupt is raised once the write is done. Only the main thread receives signals."""
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    caught = []
+    old = signal.signal(signal.SIGINT, lambda signum, frame: caught.append(signum))
+    try:
+        yield
+    finally:
+        signal.signal(signal.SIGINT, old)
+        if caught:
+            raise KeyboardInterrupt
+
+
+def _last_field(files: ResultFiles, terr, stepper, status: str, error: str):
+    """Write the last step's field if it was held back; (status, error) after it ("failed" when it cannot be)."""
+    try:
+        if files.flush_field():
+            terr.record(stepper.estimator.error, True)
+    except ResultsError as exc:
+        return "failed", str(exc)
+    return status, error
+
+
 #: Phases of a run, in the order :func:`run_case` reports them.
 RUN_PHASES = ("assembling", "factorising", "stepping", "writing")
 
@@ -104,7 +134,9 @@ def run_case(case: Case, out_dir, progress=None, should_stop=None, assembler=Non
     dict
         The summary also written to ``summary.json``; ``status`` is
         "complete" or "cancelled" (Ctrl-C or ``should_stop``). On any other
-        error the files are closed with status "failed" and the error re-raised.
+        error (a full disk, a solver failure) the files are closed on the
+        last whole step, summary.json says "failed" and why, and the error is
+        re-raised. Ctrl-C before the result files exist propagates.
     """
     phase = phase or (lambda name: None)
     t0 = _time.perf_counter()
@@ -117,20 +149,16 @@ def run_case(case: Case, out_dir, progress=None, should_stop=None, assembler=Non
     phase("factorising")
     stepper.prepare()
     phase("stepping")
-    files = ResultFiles(out_dir, case.mesh, probes.names)
+    files = ResultFiles(out_dir, case.mesh, probes.names, every=case.output_every)
     clock = {"setup": _time.perf_counter() - t0, "output": 0.0}
-    every, pending, status, error = case.output_every, None, "failed", ""
+    status, error = "failed", ""
     tick = _time.perf_counter()
     try:
-        for k, (t, T) in enumerate(stepper.steps()):
+        for t, T in stepper.steps():
             t1 = _time.perf_counter()
-            files.step(t, *rec.record(t, T))
-            if k % every == 0:
-                files.field.write(t, T)
-                pending = None
-            else:
-                pending = (t, T, stepper.estimator.error)
-            terr.record(stepper.estimator.error, pending is None)
+            with _interrupts_deferred():
+                written = files.step(t, *rec.record(t, T), T)
+            terr.record(stepper.estimator.error, written)
             clock["output"] += _time.perf_counter() - t1
             if should_stop is not None and should_stop():
                 stepper.cancel()
@@ -138,19 +166,19 @@ def run_case(case: Case, out_dir, progress=None, should_stop=None, assembler=Non
     except KeyboardInterrupt:
         status = "cancelled"
     except Exception as exc:
-        error = f"{type(exc).__name__}: {exc}"
+        error = str(exc) if isinstance(exc, HeatsoakError) else f"{type(exc).__name__}: {exc}"
         raise
     finally:
         phase("writing")
-        if pending is not None:
-            files.field.write(*pending[:2])
-            terr.record(pending[2], True)
+        with _interrupts_deferred():
+            status, error = _last_field(files, terr, stepper, status, error)
         clock["wall"] = _time.perf_counter() - t0
         clock["stepping"] = _time.perf_counter() - tick - clock["output"]
         summary = _summary(case, stepper, rec, files, status, clock, terr)
         if status == "failed":
             summary["error"] = error
-        summary = files.finish(summary)
+        with _interrupts_deferred():
+            summary = files.finish(summary)
     return summary
 
 

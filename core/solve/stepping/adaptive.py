@@ -24,7 +24,6 @@ G = GLOBAL_SHARE tol. The total then stays near G: |E_{n+1}| <= |R E_n| + l_n.
 from __future__ import annotations
 
 import numpy as np
-
 from heatsoak.core.solve.stepping.base import MERGE
 from heatsoak.core.solve.stepping.error import step_order
 
