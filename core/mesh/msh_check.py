@@ -36,17 +36,29 @@ def _section(text: bytes, name: bytes) -> list:
 
 
 def _bad_v2(lines: list, counts: np.ndarray):
-    """(element number, node number) of the first element line referring to a node <= 0, or None."""
-    rows = [line.split() for line in lines[1:]]
-    for width in sorted({len(r) for r in rows}):
-        block = np.array([r for r in rows if len(r) == width], dtype=np.int64)
-        k = counts[np.clip(block[:, 1], 0, len(counts) - 1)]  # nodes per element, by its type
-        nodes = np.arange(width)[None, :] >= width - k[:, None]
-        bad = nodes & (block <= 0)
-        if bad.any():
-            row = int(np.argmax(bad.any(axis=1)))
-            return int(block[row, 0]), int(block[row][bad[row]][0])
-    return None
+    """(element number, node number) of the first element line referring to a node <= 0, or None.
+
+    Lines are "number type n_tags tags... nodes...": the nodes are the last ones, as many as
+    the type has; all tokens are read at once and each is given its line and place from the end.
+    """
+    body = b"\n".join(lines[1:])
+    chars = np.frombuffer(body, dtype=np.uint8)
+    space = (chars == ord(" ")) | (chars == ord("\n")) | (chars == ord("\t")) | (chars == ord("\r"))
+    starts = np.flatnonzero(~space & np.concatenate([[True], space[:-1]]))
+    line = np.searchsorted(np.flatnonzero(chars == ord("\n")), starts)  # line of each token
+    tokens = np.array(body.split(), dtype=np.int64)
+    if len(tokens) != len(starts) or not len(tokens):
+        return None
+    first = np.searchsorted(line, np.arange(line[-1] + 1))  # first token of each line
+    size = np.diff(np.append(first, len(tokens)))
+    kind = tokens[np.minimum(first + 1, len(tokens) - 1)]
+    k = counts[np.clip(kind, 0, len(counts) - 1)]
+    from_end = (first + size)[line] - np.arange(len(tokens))  # 1 for a line's last token
+    bad = (from_end <= k[line]) & (tokens <= 0)
+    if not bad.any():
+        return None
+    t = int(np.argmax(bad))
+    return int(tokens[first[line[t]]]), int(tokens[t])
 
 
 def _bad_v4(lines: list):
