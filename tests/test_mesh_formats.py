@@ -186,3 +186,10 @@ def test_an_msh_element_on_node_zero_or_below_is_named_not_called_zero_volume(tm
     path.write_text("\n".join(lines) + "\n")
     with pytest.raises(MeshError, match=f"box.msh: element {parts[0]} refers to node {node}: node numbers start at 1"):
         read_mesh(path)
+
+
+def test_an_msh_version_1_file_is_read_by_gmsh_itself(tmp_path):
+    # version 1 has physical numbers but no names: the regions are numbered
+    mesh = read_mesh(two_boxes(tmp_path / "v1.msh", 1.0, size=0.5))
+    assert len(mesh.region_names) == 2 and any("gmsh's own reader" in w for w in mesh.warnings)
+    np.testing.assert_allclose(sorted(_volumes(mesh).values()), [1.0, 1.0], rtol=1e-12)

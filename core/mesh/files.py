@@ -170,6 +170,6 @@ def read_raw(path: Path):
             raise
         except (Exception, SystemExit) as exc:  # noqa: BLE001 - each reader fails its own way on a bad file
             problems.append(_reader_problem(fmt, exc))
-    if "gmsh" in formats and _head(path).startswith(b"$MeshFormat"):
+    if "gmsh" in formats and _head(path).startswith(SIGNATURES["gmsh"]):
         return read_with_gmsh(path, "; ".join(problems)), (f"read with gmsh's own reader ({problems[0]})",)
     raise MeshError(f"cannot read mesh file {path} (corrupt or truncated?): {'; '.join(problems)}")
