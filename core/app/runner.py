@@ -327,21 +327,19 @@ def cmd_run(args) -> int:
     """``heatsoak run CASE [CASE ...] [--out DIR] [--quiet]``: run headless.
 
     One case writes into DIR (default ``<case>-results`` beside it); several
-    cases (a batch) each write into ``DIR/<case stem>`` (default beside each
-    case). Every case is checked before the first one runs. Exit 0 when all
-    complete, 2 on bad input, 130 when cancelled.
+    cases are a batch (:mod:`heatsoak.core.app.batch`): every case is checked
+    before the first one runs, each writes into a folder of its own, a case
+    that fails does not stop the others. Exit 0 when all complete, 2 on bad
+    input, 1 when a run failed, 130 when cancelled.
     """
     paths = [Path(c) for c in ([args.case] if isinstance(args.case, str) else args.case)]
-    problems = [i.message for p in paths for i in check_case(p)] if len(paths) > 1 else []
-    if problems:
-        raise CaseError(problems)
-    for path in paths:
-        if args.out is None:
-            out = path.parent / f"{path.stem}-results"
-        else:
-            out = Path(args.out) / path.stem if len(paths) > 1 else Path(args.out)
-        if len(paths) > 1:
-            print(f"== {path}", flush=True)
-        if _run_one(path, out, args.quiet)["status"] != "complete":
-            return EXIT_CANCELLED
-    return 0
+    if len(paths) > 1:
+        from heatsoak.core.app.batch import output_folders, run_batch
+
+        output_folders(paths, args.out)  # a file named twice is refused before anything runs
+        problems = [i.message for p in paths for i in check_case(p)]
+        if problems:
+            raise CaseError(problems)
+        return run_batch(paths, args.out, args.quiet, _run_one)
+    out = paths[0].parent / f"{paths[0].stem}-results" if args.out is None else Path(args.out)
+    return 0 if _run_one(paths[0], out, args.quiet)["status"] == "complete" else EXIT_CANCELLED
