@@ -110,14 +110,8 @@ def reference_jacobians(points: np.ndarray, cells: np.ndarray, degree: int, inve
 
 
 def isoparametric(points: np.ndarray, cells: np.ndarray, degree: int):
-    """Physical shape-function gradients and weights at quadrature points.
-
-    Parameters
-    ----------
-    points : (n_nodes, 3)
-    cells : (n_cells, nb) int, nb = 4 or 10
-    degree : int
-        Polynomial degree the quadrature rule integrates exactly.
+    """Physical shape-function gradients and weights at quadrature points (arguments as
+    :func:`reference_jacobians`).
 
     Returns
     -------

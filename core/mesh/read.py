@@ -10,6 +10,7 @@ repaired or ignored is listed in ``Mesh.warnings``.
 
 from __future__ import annotations
 
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
@@ -18,6 +19,7 @@ from heatsoak.core.mesh.files import read_raw
 from heatsoak.core.mesh.geometry import curved_cells, sampled_jacobians
 from heatsoak.core.mesh.mesh import TET_EDGES, Mesh
 from heatsoak.core.mesh.surface import (
+    REMAINDER,
     feature_groups,
     interface_faces,
     match_tagged_faces,
@@ -172,17 +174,8 @@ def build_mesh(
         )
     on_boundary = np.flatnonzero(count == 1)
     faces, face_cell = local[on_boundary], on_boundary // 4
-    grouping = None
-    if tagged_faces:
-        grouping = match_tagged_faces(keys[on_boundary], tagged_faces, keys[pairs[:, 0]])
-        notes += grouping.notes
-        if grouping.names == ("untagged",):
-            notes.append(
-                f"no tagged triangle lies on the boundary; surfaces split at {feature_angle:g} degree edges"
-            )
-            grouping = None
-    grouping = feature_groups(points, faces, feature_angle) if grouping is None else split_remainder(
-        points, faces, grouping, feature_angle)
+    grouping = _surface_groups(points, faces, keys[on_boundary], keys[pairs[:, 0]], tagged_faces, feature_angle)
+    notes += grouping.notes
     notes += _unmerged(points, faces)
     notes += _bodies(cells, len(points))
     return Mesh(
@@ -200,6 +193,18 @@ def build_mesh(
         unit=unit,
         splits=tuple(splits),
     )
+
+
+def _surface_groups(points, faces, face_keys, interior_keys, tagged_faces, feature_angle):
+    """Groups of the boundary faces: the tagged triangles' names, the rest split at sharp edges;
+    an untagged boundary (or one no tagged triangle lies on) split at sharp edges."""
+    if tagged_faces:
+        grouping = match_tagged_faces(face_keys, tagged_faces, interior_keys)
+        if grouping.names != (REMAINDER,):
+            return split_remainder(points, faces, grouping, feature_angle)
+        note = f"no tagged triangle lies on the boundary; surfaces split at {feature_angle:g} degree edges"
+        return replace(feature_groups(points, faces, feature_angle), notes=(*grouping.notes, note))
+    return feature_groups(points, faces, feature_angle)
 
 
 def _as_arrays(points, cells, cell_region, region_names, where):
