@@ -33,6 +33,7 @@ def build_app(server, input_path=None, data_dir=None, work_dir=None, view_mode: 
     from heatsoak.plugin.pvtrame import new_plotter
     from heatsoak.plugin.results.layout import VIEW_SHOWN, curves, player, run_bar
     from heatsoak.plugin.session.layout import locked
+    from heatsoak.plugin.whatif.layout import build as live_bar
     from trame.ui.vuetify3 import VAppLayout
     from trame.widgets import html
     from trame.widgets import vuetify3 as v3
@@ -54,6 +55,7 @@ def build_app(server, input_path=None, data_dir=None, work_dir=None, view_mode: 
             with html.Div(classes="d-flex flex-column", style="height: 100%"):
                 with locked():
                     run_bar(heat)
+                    live_bar(heat)
                 with html.Div(classes="hs-view flex-grow-1", v_show=VIEW_SHOWN,
                               style="position: relative"):
                     heat.view_ui()

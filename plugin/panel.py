@@ -30,6 +30,7 @@ from heatsoak.plugin.session import layout as session_layout
 from heatsoak.plugin.setup import actions as setup_actions
 from heatsoak.plugin.setup import layout as setup_layout
 from heatsoak.plugin.startup import WorkFolder
+from heatsoak.plugin.whatif import actions as whatif_actions
 from trame.widgets import html
 
 #: Shown in the panel and the app bar: what the numbers are worth.
@@ -78,7 +79,7 @@ class HeatPanel:
         self.state.hs_disclaimer = DISCLAIMER
         server.enable_module({"serve": {"__heatsoak": str(Path(__file__).parent)}, "styles": ["__heatsoak/style.css"]})
         for module in (jobs_actions, session_actions, load_actions, setup_actions, run_actions, results_actions,
-                       results_time_error, export_actions, guard):
+                       results_time_error, export_actions, guard, whatif_actions):
             module.register(self)
 
     def open_path(self, path) -> bool:

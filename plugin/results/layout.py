@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from heatsoak.plugin.results import time_error
 from heatsoak.plugin.runs.layout import save_js
+from heatsoak.plugin.whatif import layout as whatif_layout
 from trame.widgets import html, plotly
 from trame.widgets import vuetify3 as v3
 
@@ -153,5 +154,6 @@ def probe_table() -> None:
 
 def build(panel) -> None:
     run_bar(panel)
+    whatif_layout.build(panel)
     player(panel)
     curves(panel)
