@@ -161,3 +161,25 @@ def test_a_gmsh_mesh_of_hexahedra_and_wedges_is_read_whole(tmp_path):
     np.testing.assert_allclose(sum(areas.values()), 10.0, rtol=1e-12)  # no face inside left unmatched
     assert any(s.startswith("27 hexahedra split into") for s in mesh.splits)
     assert any("wedges split into" in s for s in mesh.splits)
+
+
+def test_hexahedra_written_with_repeated_nodes_keep_the_volume_of_their_true_shape(tmp_path):
+    # some writers store wedges and pyramids as hexahedra with repeated nodes; the column i == 0
+    # of wedges and the pyramids of mixed_blocks are written that way here
+    points, blocks = mixed_blocks(2)
+    kinds = dict(blocks)
+    w, p = kinds["wedge"], kinds["pyramid"]
+    as_hex = np.vstack([kinds["hexahedron"], w[:, [0, 1, 2, 2, 3, 4, 5, 5]], p[:, [0, 1, 2, 3, 4, 4, 4, 4]]])
+    meshio.write(tmp_path / "collapsed.vtu", meshio.Mesh(points, [("hexahedron", as_hex)]))
+    mesh = read_mesh(tmp_path / "collapsed.vtu")
+    np.testing.assert_allclose(cell_volumes(mesh.points, mesh.cells).sum(), 1.0, rtol=1e-12)
+    np.testing.assert_allclose(face_areas(mesh.points, mesh.faces).sum(), 6.0, rtol=1e-12)
+    assert f"({len(w) + len(p)} of them with repeated nodes: collapsed shapes)" in mesh.splits[0]
+
+
+def test_a_hexahedron_collapsed_to_a_face_is_refused(tmp_path):
+    points, hexes, _ = hex_grid(1, seed=None)
+    flat = hexes[:, [0, 1, 2, 3, 0, 1, 2, 3]]
+    meshio.write(tmp_path / "flat.vtu", meshio.Mesh(points, [("hexahedron", np.vstack([hexes, flat]))]))
+    with pytest.raises(MeshError, match="flat.vtu: 1 hexahedron cells have so many repeated nodes that they hold no volume"):
+        read_mesh(tmp_path / "flat.vtu")

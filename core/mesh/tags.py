@@ -110,25 +110,34 @@ def _refuse_unusable_solids(raw, points, path: Path) -> None:
     )
 
 
-def _volume_cells(raw, vol):
-    """Tetrahedra of the volume blocks, the original cell (over ``vol``) each came from, and notes."""
-    cells, source, notes, offset = [], [], [], 0
+def _volume_cells(raw, vol, path: Path):
+    """Tetrahedra of the volume blocks, the original cell (over ``vol``) each came from, and what was split.
+
+    A hexahedron, wedge or pyramid written with repeated nodes (a wedge, pyramid or tetrahedron
+    collapsed into it, as some writers store them) keeps only its tetrahedra of four distinct
+    nodes: those fill the true shape.
+    """
+    cells, source, counts, offset = [], [], {}, 0
     for i in vol:
         block = raw.cells[i]
         data = np.asarray(block.data, dtype=np.int64)
+        tets, origin = data, np.arange(len(data))
         if block.type in SPLIT_TYPES:
             tets, origin = split_cells(block.type, data)
-            notes.append((block.type, len(data), len(tets)))
-        else:
-            tets, origin = data, np.arange(len(data))
+            ranked = np.sort(tets, axis=1)
+            distinct = (ranked[:, 1:] != ranked[:, :-1]).all(axis=1)
+            collapsed = len(np.unique(origin[~distinct]))
+            tets, origin = tets[distinct], origin[distinct]
+            if len(np.unique(origin)) < len(data):
+                raise MeshError(f"{path}: {len(data) - len(np.unique(origin))} {block.type} cells have so many "
+                                "repeated nodes that they hold no volume")
+            counts[block.type] = counts.get(block.type, np.zeros(3, int)) + (len(data), len(tets), collapsed)
         cells.append(tets)
         source.append(origin + offset)
         offset += len(data)
-    split = {}
-    for kind, n, m in notes:
-        a, b = split.get(kind, (0, 0))
-        split[kind] = (a + n, b + m)
-    said = tuple(f"{n} {SPLIT_TYPES[k][1] if n > 1 else k} split into {m} tetrahedra" for k, (n, m) in split.items())
+    said = tuple(f"{n} {SPLIT_TYPES[k][1] if n > 1 else k} split into {m} tetrahedra"
+                 + (f" ({c} of them with repeated nodes: collapsed shapes)" if c else "")
+                 for k, (n, m, c) in counts.items())
     return np.vstack(cells), np.concatenate(source), said
 
 
@@ -170,7 +179,7 @@ def split_blocks(raw, path: Path):
     warnings = []
     if ignored:
         warnings.append(f"ignored cells that are neither solid cells nor surface faces: {_census(ignored)}")
-    cells, source, splits = _volume_cells(raw, vol)
+    cells, source, splits = _volume_cells(raw, vol, path)
     region, names, note = _block_labels(raw, vol, 3, "region")
     warnings += note
     tagged = None
