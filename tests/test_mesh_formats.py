@@ -193,3 +193,34 @@ def test_an_msh_version_1_file_is_read_by_gmsh_itself(tmp_path):
     mesh = read_mesh(two_boxes(tmp_path / "v1.msh", 1.0, size=0.5))
     assert len(mesh.region_names) == 2 and any("gmsh's own reader" in w for w in mesh.warnings)
     np.testing.assert_allclose(sorted(_volumes(mesh).values()), [1.0, 1.0], rtol=1e-12)
+
+
+#: Tetrahedron sides as 1-based node lists, as the Exodus element-type documentation (SEACAS) gives them.
+EXODUS_TET_SIDES = {1: (1, 2, 4), 2: (2, 3, 4), 3: (1, 4, 3), 4: (1, 3, 2)}
+
+
+def test_exodus_side_sets_name_the_boundary_faces_they_list(tmp_path):
+    netCDF4 = pytest.importorskip("netCDF4")
+    ref = read_mesh(two_boxes(tmp_path / "two.msh", 4.1, size=0.5))
+    order = np.argsort(ref.cell_region, kind="stable")  # blocks: left cells, then right cells
+    cells = ref.cells[order]
+    blocks = [("tetra", cells[ref.cell_region[order] == k]) for k in (0, 1)]
+    meshio.write(tmp_path / "two.e", meshio.Mesh(ref.points, blocks))
+    at_end = np.flatnonzero(ref.points[ref.faces[:, :3], 0].min(axis=1) > 2 - 1e-9)  # the side x = 2
+    element = np.argsort(order)[ref.face_cell[at_end]]  # 0-based, numbered across the blocks
+    face = np.sort(ref.faces[at_end, :3], axis=1)
+    side = [next(s for s, nodes in EXODUS_TET_SIDES.items()
+                 if np.array_equal(np.sort(cells[e][np.array(nodes) - 1]), f)) for e, f in zip(element, face)]
+    with netCDF4.Dataset(tmp_path / "two.e", "a") as nc:
+        nc.createDimension("num_side_sets", 1)
+        nc.createDimension("num_side_ss1", len(side))
+        nc.createDimension("len_name", 33)
+        nc.createVariable("ss_prop1", "i4", ("num_side_sets",))[:] = [7]
+        nc.createVariable("ss_names", "S1", ("num_side_sets", "len_name"))[:] = netCDF4.stringtochar(
+            np.array(["outlet"], dtype="S33"))
+        nc.createVariable("elem_ss1", "i4", ("num_side_ss1",))[:] = element + 1
+        nc.createVariable("side_ss1", "i4", ("num_side_ss1",))[:] = side
+    mesh = read_mesh(tmp_path / "two.e")
+    assert len(mesh.region_names) == 2 and mesh.group_names[0] == "outlet"  # blocks named by their ids
+    np.testing.assert_allclose(_areas(mesh)["outlet"], 1.0, rtol=1e-12)
+    np.testing.assert_allclose(mesh.points[mesh.group_nodes("outlet"), 0], 2.0)

@@ -1,9 +1,13 @@
-"""Element block names of Exodus II files, which meshio's reader leaves out.
+"""Element block names and side sets of Exodus II files, which meshio's reader leaves out.
 
-In an Exodus file each element block is one material region; meshio returns the
-blocks as cell blocks without their names or numbers. This reads them with
-netCDF4 (which meshio needs for Exodus anyway): the block's name from
-``eb_names``, else "block-<number>" from ``eb_prop1``. Side sets are not read.
+In an Exodus file each element block is one material region, and side sets (element,
+side) name the boundary. meshio returns the blocks without their names and drops the
+side sets; this reads both with netCDF4 (which meshio needs for Exodus anyway): a
+block's name from ``eb_names``, else "block-<number>" from ``eb_prop1``; a side set's
+from ``ss_names``, else "sideset-<number>". Element results are not tags and are dropped.
+
+Side numbering (1-based node lists) from the Exodus element-type documentation of
+Sandia's SEACAS project.
 """
 
 from __future__ import annotations
@@ -12,6 +16,13 @@ from pathlib import Path
 
 import numpy as np
 
+# Sides of each solid by the corner nodes of the cell (0-based, VTK/meshio corner order).
+_TET = ((0, 1, 3), (1, 2, 3), (0, 3, 2), (0, 2, 1))
+_HEX = ((0, 1, 5, 4), (1, 2, 6, 5), (2, 3, 7, 6), (0, 4, 7, 3), (0, 3, 2, 1), (4, 5, 6, 7))
+_WEDGE = ((0, 1, 4, 3), (1, 2, 5, 4), (0, 3, 5, 2), (0, 2, 1), (3, 4, 5))
+_PYRAMID = ((0, 1, 4), (1, 2, 4), (2, 3, 4), (3, 0, 4), (0, 3, 2, 1))
+SIDES = {"tetra": _TET, "hexahedron": _HEX, "wedge": _WEDGE, "pyramid": _PYRAMID}
+
 
 def _text(rows) -> list:
     """Strings of a netCDF character array (n, length)."""
@@ -19,34 +30,69 @@ def _text(rows) -> list:
     return [b"".join(r.tolist()).decode("utf-8", errors="replace").strip("\x00 ") for r in rows]
 
 
-def block_names(path: Path) -> list:
-    """The name of each ``connect<N>`` variable's block, in the order meshio reads them."""
+def _names(nc, names_key: str, ids_key: str, prefix: str, count: int) -> list:
+    """Names of ``count`` entities: the file's names, else "<prefix>-<id>"."""
+    names, ids = [], []
+    if names_key in nc.variables:
+        nc.variables[names_key].set_auto_mask(False)
+        names = _text(nc.variables[names_key][:])
+    if ids_key in nc.variables:
+        ids = np.asarray(nc.variables[ids_key][:]).tolist()
+    return [(names[k] if k < len(names) else "") or f"{prefix}-{ids[k] if k < len(ids) else k + 1}"
+            for k in range(count)]
+
+
+def _read(path: Path):
+    """Block names in meshio's block order, and side sets as (name, element indices, sides)."""
     import netCDF4
 
     with netCDF4.Dataset(str(path)) as nc:
         keys = [k for k in nc.variables if k.startswith("connect")]
-        names = []
-        if "eb_names" in nc.variables:
-            nc.variables["eb_names"].set_auto_mask(False)
-            names = _text(nc.variables["eb_names"][:])
-        ids = np.asarray(nc.variables["eb_prop1"][:]).tolist() if "eb_prop1" in nc.variables else []
+        order = [int(k[7:]) - 1 if k[7:].isdigit() else i for i, k in enumerate(keys)]
+        blocks = _names(nc, "eb_names", "eb_prop1", "block", max(order, default=-1) + 1)
+        n_sets = len(nc.dimensions["num_side_sets"]) if "num_side_sets" in nc.dimensions else 0
+        set_names = _names(nc, "ss_names", "ss_prop1", "sideset", n_sets)
+        sides = [(set_names[k], np.asarray(nc.variables[f"elem_ss{k + 1}"][:], dtype=np.int64) - 1,
+                  np.asarray(nc.variables[f"side_ss{k + 1}"][:], dtype=np.int64) - 1)
+                 for k in range(n_sets) if f"elem_ss{k + 1}" in nc.variables]
+    return [blocks[i] for i in order], sides
+
+
+def _side_faces(raw, elements: np.ndarray, side: np.ndarray) -> list:
+    """(cell type, corner nodes) blocks of the given sides of the given elements (global, 0-based)."""
+    sizes = [len(b.data) for b in raw.cells]
+    start = np.concatenate([[0], np.cumsum(sizes)])
+    block = np.searchsorted(start, elements, side="right") - 1
     out = []
-    for key in keys:
-        k = int(key[7:]) - 1 if key[7:].isdigit() else len(out)
-        name = names[k] if k < len(names) else ""
-        out.append(name or f"block-{ids[k] if k < len(ids) else k + 1}")
+    for b in np.unique(block[(block >= 0) & (block < len(sizes))]):
+        kind = next((k for k in SIDES if raw.cells[b].type.startswith(k)), None)
+        if kind is None:
+            continue
+        mine = block == b
+        rows, s = elements[mine] - start[b], side[mine]
+        for k, corners in enumerate(SIDES[kind]):
+            pick = s == k
+            if pick.any():
+                out.append(("triangle" if len(corners) == 3 else "quad",
+                            np.asarray(raw.cells[b].data)[rows[pick]][:, list(corners)]))
     return out
 
 
 def name_blocks(raw, path: Path):
-    """``raw`` with one named cell set per element block, when it carries no tags of its own."""
-    if raw.cell_data or raw.cell_sets:
-        return raw
-    names = block_names(path)
+    """``raw`` rebuilt with one named cell set per element block and per side set (its faces as
+    triangles and quadrilaterals)."""
+    import meshio
+
+    names, side_sets = _read(path)
     if len(names) != len(raw.cells):
         return raw
-    raw.cell_sets = {}
-    for k, name in enumerate(names):
-        per_block = raw.cell_sets.setdefault(name, [None] * len(raw.cells))
-        per_block[k] = np.arange(len(raw.cells[k].data))
-    return raw
+    cells = [(b.type, b.data) for b in raw.cells]
+    members = [(name, k) for k, name in enumerate(names)]
+    for name, elements, side in side_sets:
+        for kind, faces in _side_faces(raw, elements, side):
+            cells.append((kind, faces))
+            members.append((name, len(cells) - 1))
+    sets = {}
+    for name, k in members:
+        sets.setdefault(name, [None] * len(cells))[k] = np.arange(len(cells[k][1]))
+    return meshio.Mesh(raw.points, cells, cell_sets=sets)
