@@ -160,3 +160,18 @@ def test_a_fixed_step_run_reports_its_estimate_per_probe(tmp_path, demo_copy):
     assert summary["steps"] == 180
     assert set(summary["time_error"]) == {"top-mid", "rim", "sleeve"}
     assert max(summary["time_error"].values()) > 0
+
+
+def test_the_bench_compares_adaptive_steps_with_the_fixed_step_of_the_same_accuracy():
+    from heatsoak.core.app.bench_time import measure_case, time_error_rows
+
+    mesh = box_mesh((20, 1, 1), size=(0.25, 0.25 / 20, 0.25 / 20))
+    ramp = Boundary("temperature", Ramp(20.0, 120.0, 0.0, 50.0))
+    problem = Problem(mesh, {"box": STEEL_LIKE}, {"xmin": ramp}, initial=20.0)
+    probes = ProbeSet(mesh, [[0.02, 0.0, 0.0]], ["p"])
+    rec = measure_case("bar", problem, TimeSettings(end=400.0, step=10.0), probes, 1.0, tolerance=0.5, ref_steps=1000)
+    assert 0 < rec["fixed_error_K"] <= rec["adaptive_error_K"] < rec["tolerance_K"]
+    # ramp and hold: the fixed step must be the smallest the adaptive run needed, held for the whole run
+    assert rec["fixed_steps"] > rec["adaptive_steps"]
+    assert [row[1] for row in time_error_rows([rec], str)] == [
+        "adaptive BE, tolerance 0.5 K", "fixed BE step of the same error", "time-step error estimate, fixed BE"]

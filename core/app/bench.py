@@ -218,12 +218,20 @@ def cmd_bench(args) -> int:
     wanted = getattr(args, "reduced", False) or getattr(args, "reduced_only", False)
     reduced = _reduced(sizes, args.steps, where, getattr(args, "pymor", False)) if wanted else []
     rows += [row for r in reduced for row in reduced_rows(r, _t)]
+    if getattr(args, "time_error", False):
+        from heatsoak.core.app.bench_time import measure_time_error, time_error_rows
+
+        print("measuring adaptive steps against fixed ones ...", file=sys.stderr, flush=True)
+        time_records = measure_time_error()
+        rows += time_error_rows(time_records, _t)
     print(format_table(rows))
     for r in records:
         print(f"auto, {r['size']}, Fo {r['fourier']:g}: {r['solver']}: {r['solver_reason']}")
     if getattr(args, "sweep", False):
         records.append({"size": "sweep", **sweep, "machine": where})
     records += reduced
+    if getattr(args, "time_error", False):
+        records += [{"size": "time-error", **r, "machine": where} for r in time_records]
     if args.json:
         Path(args.json).write_text(json.dumps(records, indent=2) + "\n", encoding="utf-8")
     return 0

@@ -86,6 +86,8 @@ def _bench_args(p):
     p.add_argument("--reduced-only", action="store_true", help="measure only the reduced-model rows")
     p.add_argument("--pymor", action="store_true", help="with --reduced: also build pyMOR's balanced truncation "
                    "of the same system and compare (the mor extra; small sizes only)")
+    p.add_argument("--time-error", action="store_true", help="also compare adaptive steps (tolerance) with the "
+                   "fixed step of the same accuracy on the demo case and a cube")
 
 
 def _ui_args(p):

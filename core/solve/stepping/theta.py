@@ -245,7 +245,7 @@ class ThetaMethod(Integrator):
     def _solver(self, dt: float, theta: float):
         # steps of one size differ in their last bits (t_new - t): match cached sizes to 1e-9
         key = next((k for k in self._solvers if k[1] == theta and abs(k[0] - dt) <= 1e-9 * dt), (dt, theta))
-        s = self._solvers.get(key)
+        s = self._solvers.pop(key, None)
         if s is None:
             if self.ops.lumped:
                 A = sp.diags(self._Mff / dt) + theta * self._Kff if theta > 0 else sp.diags(self._Mff / dt)
@@ -254,8 +254,8 @@ class ThetaMethod(Integrator):
             s = make_solver(sp.csr_matrix(A), self.solver_name)
             self.factorizations += 1
             if len(self._solvers) >= CACHE_SIZE:
-                self._solvers.pop(next(iter(self._solvers)))
-            self._solvers[key] = s
+                self._solvers.pop(next(iter(self._solvers)))  # the least recently used
+        self._solvers[key] = s  # last in the order: most recently used
         return s
 
     # -- one step ------------------------------------------------------------
