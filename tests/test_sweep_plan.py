@@ -82,3 +82,16 @@ def test_the_table_has_the_promised_columns_and_blank_missing_values(tmp_path):
     table = read_table(write_table(tmp_path / "sweep.csv", ["time.step"], rows))
     assert table[0]["core.crossing"] == "" and table[0]["core.max"] == "41.0" and table[0]["model"] == "full"
     assert table[1]["core.end"] == "" and table[1]["error"] == "CaseError: time.step: bad | second line"
+
+
+def test_a_case_given_as_data_plans_the_same_variants_as_its_file(tmp_path):
+    from heatsoak.core.app.sweep.plan import plan_from_data
+    from heatsoak.core.case.casefile import read_case_toml
+
+    case = make_case(tmp_path)
+    out = tmp_path / "sweeps" / "one"
+    from_file = plan_sweep(case, ["boundary.xmax.h=[5, 50]"], out_dir=out)
+    from_data = plan_from_data(read_case_toml(case), tmp_path, ["boundary.xmax.h=[5, 50]"], out_dir=out)
+    assert from_data.case_path is None and from_data.keys == from_file.keys
+    assert [(v.name, v.data) for v in from_data.variants] == [(v.name, v.data) for v in from_file.variants]
+    assert from_data.variants[0].data["mesh"]["file"] == "../../../box.msh"

@@ -24,7 +24,7 @@ from heatsoak.core.case.overrides import apply_assignment, parse_assignment, par
 from heatsoak.core.case.relocate import relocate_files
 from heatsoak.core.errors import CaseError
 
-__all__ = ["SweepPlan", "Variant", "parse_vary", "plan_sweep", "read_variant_list"]
+__all__ = ["SweepPlan", "Variant", "parse_vary", "plan_from_data", "plan_sweep", "read_variant_list"]
 
 #: Most variants one sweep may hold (a typo in a factorial should not queue a million runs).
 MAX_VARIANTS = 10_000
@@ -51,9 +51,10 @@ class Variant:
 
 @dataclass
 class SweepPlan:
-    """The case a sweep starts from, its varied keys (table columns, in order) and its variants."""
+    """The case a sweep starts from (None when given as data), its varied keys (table columns, in order)
+    and its variants."""
 
-    case_path: Path
+    case_path: Path | None
     keys: list
     variants: list
 
@@ -152,7 +153,12 @@ def plan_sweep(case_path, vary=(), list_file=None, out_dir=".") -> SweepPlan:
         The sweep's folder; variant case files go to ``out_dir/variants``.
     """
     case_path = Path(case_path)
-    base = read_case_toml(case_path)
+    return plan_from_data(read_case_toml(case_path), case_path.parent, vary, list_file, out_dir, case_path)
+
+
+def plan_from_data(base: dict, base_dir, vary=(), list_file=None, out_dir=".", case_path=None) -> SweepPlan:
+    """The variants of a sweep of case tables ``base`` whose file names are relative to ``base_dir``
+    (a case being edited, not yet saved); other parameters as :func:`plan_sweep`."""
     keys, combos = _combinations([parse_vary(t) for t in vary],
                                  None if list_file is None else read_variant_list(list_file))
     target = Path(out_dir) / "variants"
@@ -166,5 +172,5 @@ def plan_sweep(case_path, vary=(), list_file=None, out_dir=".") -> SweepPlan:
         if name in seen:
             raise CaseError(f"--list {list_file}: the variant name {name!r} is used twice")
         seen.add(name)
-        variants.append(Variant(name, dict(zip(keys, values)), relocate_files(data, case_path.parent, target)))
-    return SweepPlan(case_path, keys, variants)
+        variants.append(Variant(name, dict(zip(keys, values)), relocate_files(data, base_dir, target)))
+    return SweepPlan(None if case_path is None else Path(case_path), keys, variants)
