@@ -122,7 +122,7 @@ def test_full_runs_every_variant_even_schedule_only_ones(tmp_path, cluster):
 
 
 def test_stopping_cancels_the_rest_and_writes_the_table_so_far(tmp_path, cluster):
-    case = long_case(tmp_path)
+    case = long_case(tmp_path, step=0.2)
     seen = []
     plan = plan_sweep(case, ["boundary.xmax.h=[5, 10, 20, 40, 80, 160]"], out_dir=tmp_path / "s")
     result = run_sweep(plan, tmp_path / "s", scheduler=cluster[0], on_row=seen.append,
@@ -136,7 +136,7 @@ def test_stopping_cancels_the_rest_and_writes_the_table_so_far(tmp_path, cluster
 
 
 def test_ctrl_c_stops_the_sweep_command_with_the_table_written(tmp_path, cluster):
-    case = long_case(tmp_path)
+    case = long_case(tmp_path, step=0.2)
     out = tmp_path / "s"
     cmd = [sys.executable, "-m", "heatsoak.core.app.cli", "sweep", str(case), "--vary",
            "boundary.xmax.h=[5, 10, 20, 40, 80, 160]", "--out", str(out), "--scheduler", cluster[0]]
@@ -154,25 +154,6 @@ def test_ctrl_c_stops_the_sweep_command_with_the_table_written(tmp_path, cluster
     statuses = [r["status"] for r in read_table(out / "sweep.csv")]
     assert len(statuses) == 6 and "cancelled" in statuses and "complete" in statuses
     assert "Traceback" not in err
-
-
-def test_a_worker_killed_mid_sweep_gets_its_variant_run_again(tmp_path, cluster):
-    address, client = cluster
-    case = long_case(tmp_path)
-    plan = plan_sweep(case, ["boundary.xmax.h=[5, 10, 20]"], out_dir=tmp_path / "s")
-    pids, box = worker_pids(client), {}
-    runner = threading.Thread(target=lambda: box.update(result=run_sweep(plan, tmp_path / "s", scheduler=address)))
-    runner.start()
-    victim, key = wait_for_processing(client)
-    time.sleep(0.3)  # well inside its run
-    os.kill(pids[victim], signal.SIGKILL)
-    runner.join(timeout=120)
-    result = box["result"]
-    assert [r.status for r in result.rows] == ["complete"] * 3
-    ran_again = next(r for r in result.rows if key.startswith(f"heatsoak-{r.variant}-"))
-    assert ran_again.worker.rsplit(":", 1)[1] != str(pids[victim])
-    assert result.table.is_file()
-    client.wait_for_workers(2, timeout=60)  # the nanny restarts the killed worker for the next tests
 
 
 def test_the_local_cluster_listens_on_loopback_only_and_serves_no_dashboard(cluster):
@@ -202,16 +183,35 @@ def test_sweep_needs_something_to_vary(tmp_path, capsys):
     assert not Path(tmp_path / "s" / "sweep.csv").exists()
 
 
+def test_a_worker_killed_mid_sweep_gets_its_variant_run_again(tmp_path, cluster):
+    # last of the tests on the module's cluster: its nanny restarts the killed worker meanwhile
+    address, client = cluster
+    case = long_case(tmp_path)
+    plan = plan_sweep(case, ["boundary.xmax.h=[5, 10, 20]"], out_dir=tmp_path / "s")
+    pids, box = worker_pids(client), {}
+    runner = threading.Thread(target=lambda: box.update(result=run_sweep(plan, tmp_path / "s", scheduler=address)))
+    runner.start()
+    victim, key = wait_for_processing(client)
+    time.sleep(0.3)  # well inside its run
+    os.kill(pids[victim], signal.SIGKILL)
+    runner.join(timeout=120)
+    result = box["result"]
+    assert [r.status for r in result.rows] == ["complete"] * 3
+    ran_again = next(r for r in result.rows if key.startswith(f"heatsoak-{r.variant}-"))
+    assert ran_again.worker.rsplit(":", 1)[1] != str(pids[victim])
+    assert result.table.is_file()
+
+
 @pytest.mark.slow
-def test_the_sweep_bench_times_the_same_variants_both_ways():
+def test_the_sweep_bench_times_the_same_variants_both_ways(cluster):
     from heatsoak.core.app.sweep.bench import measure_reduced, measure_sweep, sweep_rows
 
-    record = measure_sweep(workers=1, cubes=3, steps=5)
+    record = measure_sweep(workers=2, cubes=3, steps=5, scheduler=cluster[0])
     record["reduced"] = measure_reduced(cubes=3, steps=5)
     assert record["reduced"]["variants"] == 8 and record["reduced"]["statuses"] == ["complete"]
     assert record["variants"] == 8 and record["statuses"] == ["complete"]
     assert record["sequential_s"] > 0 and record["cluster_s"] > 0
     assert record["ratio"] == pytest.approx(record["sequential_s"] / record["cluster_s"])
     rows = sweep_rows(record, lambda s: f"{s:.3g} s")
-    assert rows[0][1] == "1 worker, local cluster" and rows[0][4].endswith("x faster")
+    assert rows[0][1] == "2 workers, local cluster" and rows[0][4].endswith("x faster")
     assert rows[2][1] == "one reduced model, this process" and rows[2][2].endswith("variants/s")

@@ -57,8 +57,10 @@ def _warm() -> None:
     import heatsoak.core.app.sweep.worker  # noqa: F401
 
 
-def measure_sweep(workers: int = 2, cubes: int = CUBES, steps: int = STEPS) -> dict:
+def measure_sweep(workers: int = 2, cubes: int = CUBES, steps: int = STEPS, scheduler: str | None = None) -> dict:
     """Seconds for the bench variants one after another and on ``workers`` processes.
+
+    ``scheduler`` times a running cluster instead of a new local one (``workers`` of its workers).
 
     Returns
     -------
@@ -77,7 +79,7 @@ def measure_sweep(workers: int = 2, cubes: int = CUBES, steps: int = STEPS) -> d
         sequential = time.perf_counter() - t0
         spread, _ = prepare(plan_sweep(case, VARY, out_dir=tmp / "spread"), tmp / "spread")
         t0 = time.perf_counter()
-        with open_engine(workers) as client:
+        with open_engine(workers, scheduler) as client:
             client.wait_for_workers(workers)
             client.run(_warm)
             start = time.perf_counter() - t0
