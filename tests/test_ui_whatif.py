@@ -41,19 +41,25 @@ def test_schedule_edits_go_live_after_a_run_and_confirm_with_a_full_run(page, tm
              what="the live model to be built")
     page.locator("#hs-view-mode button:has-text('set-up')").click()
     select_group(page, "bore")
-    before = page.inner_text("#hs-live-text")
     start = time.perf_counter()
     fill(page, "#hs-ramp-over", 200)  # a three times faster ramp
-    wait_for(lambda: _state(page, "hs_live_text") != before, 10, what="the estimate to follow the edit")
-    assert time.perf_counter() - start < 2.0  # typed, sent and answered: the curves follow at once
+
+    def ahead(fig):  # how far the estimated sleeve runs ahead of the last full run [K]
+        fast, slow = _sleeve(fig, "estimate"), _sleeve(fig, 1)
+        return max(a - b for a, b in zip(fast, slow))
+
+    wait_for(lambda: ahead(_state(page, "hs_probe_fig")) > 10.0, 10, what="the estimate to follow the edit")
+    # typed, sent, answered and drawn without a new build (a build takes about a run's time); the bound
+    # is loose because the two cores are shared with other test sessions (measured 1-3.5 s end to end)
+    assert time.perf_counter() - start < 6.0
     fig = _state(page, "hs_probe_fig")
     assert "reduced-model estimate" in fig["layout"]["title"]["text"]
     run1 = [t for t in fig["data"] if (t.get("meta") or {}).get("run") == 1]
     assert run1 and all(t.get("opacity") == 0.3 for t in run1)  # the last full run stays, faint
-    fast, slow = _sleeve(fig, "estimate"), _sleeve(fig, 1)
-    assert max(a - b for a, b in zip(fast, slow)) > 10.0  # the faster ramp heats the sleeve sooner
     page.locator("#hs-view-mode button:has-text('results')").click()
     settle(page, 800)
+    # the 3D frame shows the estimate too, at the frame's time
+    wait_for(lambda: "estimate at t =" in page.inner_text("#hs-frame-time"), 10, what="the estimated frame")
     page.locator("#hs-curves").screenshot(path=str(tmp_path / "live-curves.png"))
     page.click("#hs-live-confirm")
     wait_for(lambda: "differs from the estimate by at most" in page.inner_text("#hs-live-text"), 120,

@@ -36,11 +36,16 @@ def register(panel) -> None:
             panel.live, panel.live_estimate = None, None
             state.hs_live_mode, state.hs_live_text = "off", ""
             results_curves.refresh_curves(panel)
+            results_actions.draw_frame(panel, int(state.hs_frame or 0))
 
     @state.change(*EDIT_KEYS)
     def on_edit(**_):
         if panel.live is not None and state.hs_live_mode in ("live", "stale"):
             answer_now(panel)
+
+    @state.change("hs_frame", "hs_view", "hs_shown_run")
+    def on_frame(**_):
+        draw_estimate(panel)
 
     @state.change("hs_last_run_time")
     def on_run_done(**_):
@@ -115,6 +120,7 @@ def answer_now(panel) -> None:
     state.hs_probe_table = results_curves.probe_rows([est, *runs[:1]])
     panel.live_estimate = est
     state.hs_live_mode = "live"
+    draw_estimate(panel)
     state.hs_live_text = (f"estimate from the reduced model ({panel.live.model.size} vectors), error up to "
                           f"{est.error:.2g} K, answered in {1000 * est.extra['answer_s']:.0f} ms; "
                           "not a full run: Confirm runs it")
@@ -130,4 +136,21 @@ def confirmed(panel) -> None:
     if gap is not None:
         state.hs_live_text = (f"full run {runs[0].id} differs from the estimate by at most {gap:.2g} K "
                               f"(estimated {est.error:.2g} K)")
+    panel.live_estimate = None  # the 3D view and the curves show the full run now
     results_actions.refresh_rows(panel)
+
+
+def draw_estimate(panel) -> None:
+    """Show the estimate's field in 3D at the time of the frame chosen (over the shown run's frame)."""
+    state, est = panel.state, panel.live_estimate
+    run = panel.runs.get(state.hs_shown_run)
+    if (est is None or state.hs_live_mode != "live" or state.hs_view != "results" or run is None
+            or run.series is None or not 0 <= int(state.hs_frame or 0) < len(run.series)):
+        return
+    values, t = live.estimate_field(panel.live, est, float(run.series.times[int(state.hs_frame)]))
+    panel.scene.set_values(values)
+    panel._frame_range = [float(values.min()), float(values.max())]
+    state.hs_frame_time = f"estimate at t = {t:g} s (reduced model, error up to {est.error:.2g} K)"
+    panel.scene.set_time_text(f"Estimate (reduced model)   t = {t:g} s")
+    results_actions.apply_range(panel)
+    panel.update_view()

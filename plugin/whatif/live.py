@@ -12,7 +12,7 @@ import numpy as np
 from heatsoak.core.app.runner import _probe_set
 from heatsoak.core.results.record import first_crossing
 from heatsoak.core.results.reduced import answer_outputs
-from heatsoak.core.solve.reduced import answer, build_reduced, stale_reasons
+from heatsoak.core.solve.reduced import answer, build_reduced, reconstruct, stale_reasons
 from heatsoak.plugin.results import figures
 
 #: Run id shown for the estimate in legends and hover text.
@@ -73,7 +73,14 @@ def estimate(live: LiveModel, case) -> Estimate:
     info = {n: {"threshold": thr, "crossing_time": None if thr is None else first_crossing(ans.times, probes[n], thr)}
             for n, thr in zip(live.probe_names, thresholds)}
     return Estimate(ans.times, probes, regions, {"probes": info}, ans.error_estimate, ans.method,
-                    extra={"answer_s": ans.answer_s})
+                    extra={"answer_s": ans.answer_s, "answer": ans})
+
+
+def estimate_field(live: LiveModel, est: Estimate, t: float) -> tuple:
+    """(nodal temperatures (n_nodes,) [degC], time [s]) of the estimate at its step nearest ``t``,
+    rebuilt from the basis for this one frame only."""
+    i = int(np.argmin(np.abs(est.times - t)))
+    return reconstruct(live.model, est.extra["answer"], [i])[0], float(est.times[i])
 
 
 def _faint(figure: dict, run_id) -> dict:
