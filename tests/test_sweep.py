@@ -213,5 +213,5 @@ def test_the_sweep_bench_times_the_same_variants_both_ways(cluster):
     assert record["sequential_s"] > 0 and record["cluster_s"] > 0
     assert record["ratio"] == pytest.approx(record["sequential_s"] / record["cluster_s"])
     rows = sweep_rows(record, lambda s: f"{s:.3g} s")
-    assert rows[0][1] == "2 workers, local cluster" and rows[0][4].endswith("x faster")
+    assert rows[0][1] == "2 workers, local cluster" and rows[0][4].startswith("speed-up ")
     assert rows[2][1] == "one reduced model, this process" and rows[2][2].endswith("variants/s")

@@ -15,6 +15,7 @@ second, the model's build reported apart, against full runs one after another.
 
 from __future__ import annotations
 
+import os
 import tempfile
 import time
 from pathlib import Path
@@ -52,6 +53,14 @@ def _bench_case(folder: Path, cubes: int, steps: int) -> Path:
     return folder / "cube.toml"
 
 
+def _load() -> float | None:
+    """The 1-minute load average of this machine at the end of a measurement (busy cores blur ratios)."""
+    try:
+        return os.getloadavg()[0]
+    except (AttributeError, OSError):
+        return None
+
+
 def _warm() -> None:
     """Import what a variant needs (run on each worker before the clock starts)."""
     import heatsoak.core.app.sweep.worker  # noqa: F401
@@ -65,7 +74,8 @@ def measure_sweep(workers: int = 2, cubes: int = CUBES, steps: int = STEPS, sche
     Returns
     -------
     dict
-        variants, cells, steps, workers, sequential_s, cluster_s, ratio (sequential / cluster),
+        variants, cells, steps, workers, load_avg (1 minute, at the end), sequential_s, cluster_s,
+        ratio (sequential / cluster),
         variants_per_s (on the cluster), cluster_start_s, statuses (every row's status).
     """
     from heatsoak.core.app.sweep.engine import open_engine, run_tasks
@@ -86,7 +96,7 @@ def measure_sweep(workers: int = 2, cubes: int = CUBES, steps: int = STEPS, sche
             t1 = time.perf_counter()
             run_tasks(client, spread, rows.append)
             spread_s = time.perf_counter() - t1
-    return {"variants": len(alone), "cells": 6 * cubes**3, "steps": steps, "workers": workers,
+    return {"variants": len(alone), "cells": 6 * cubes**3, "steps": steps, "workers": workers, "load_avg": _load(),
             "sequential_s": sequential, "cluster_s": spread_s, "ratio": sequential / spread_s,
             "variants_per_s": len(spread) / spread_s, "cluster_start_s": start,
             "statuses": sorted({r.status for r in rows})}
@@ -130,13 +140,14 @@ def measure_reduced(cubes: int = CUBES, steps: int = STEPS) -> dict:
 def sweep_rows(record: dict, fmt) -> list:
     """Rows (size, phase, heatsoak, reference, ratio, peak MB) of the bench table; ``fmt`` formats seconds."""
     size = f"sweep ({record['variants']} variants, {record['cells']} cells, {record['steps']} steps)"
+    load = "" if record.get("load_avg") is None else f" (load average {record['load_avg']:.1f})"
     return [
         (size, f"{record['workers']} worker{'s' if record['workers'] != 1 else ''}, local cluster", fmt(record["cluster_s"]),
-         f"one after another {fmt(record['sequential_s'])}", f"{record['ratio']:.2f}x faster", ""),
+         f"one after another {fmt(record['sequential_s'])}{load}", f"speed-up {record['ratio']:.2f}x", ""),
         (size, "local cluster start (not in the above)", fmt(record["cluster_start_s"]), "-", "-", ""),
     ] + ([] if "reduced" not in record else [
         (size.replace("variants", "schedule-only variants"), "one reduced model, this process",
          f"{record['reduced']['variants_per_s']:.3g} variants/s",
          f"model built once in {fmt(record['reduced']['build_s'])}; full runs one after another "
          f"{record['variants'] / record['sequential_s']:.3g} variants/s",
-         f"{record['reduced']['variants_per_s'] * record['sequential_s'] / record['variants']:.0f}x faster", "")])
+         f"speed-up {record['reduced']['variants_per_s'] * record['sequential_s'] / record['variants']:.0f}x", "")])
