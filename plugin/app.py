@@ -59,7 +59,7 @@ def build_app(server, input_path=None, data_dir=None, work_dir=None, view_mode: 
                 with html.Div(classes="hs-view flex-grow-1", v_show=VIEW_SHOWN,
                               style="position: relative"):
                     heat.view_ui()
-                with locked(style="display: flex; flex-direction: column; min-height: 0"):
+                with locked():
                     player(heat)
                     curves(heat)
     heat.layout = layout

@@ -180,3 +180,64 @@ def test_the_bare_case_file_names_its_mesh_and_says_it_must_lie_beside_it(tmp_pa
     (tmp_path / "saved.toml").write_text(text)
     shutil.copy(MESHES / "platen.msh", tmp_path / "platen.msh")
     assert load_case(tmp_path / "saved.toml").mesh.n_nodes > 0  # it resolves where it is saved
+
+
+@pytest.fixture()
+def panel(tmp_path):
+    """The panel mounted on a bare trame server (no browser) with the demo open."""
+    from heatsoak.plugin.app import build_app
+    from trame.app import get_server
+
+    folder = tmp_path / "data"
+    folder.mkdir()
+    for name in ("platen_warmup.toml", "platen.msh", "platen_base.csv", "lblock.vtu", "lblock_cooling.toml"):
+        shutil.copy(MESHES / name, folder / name)
+    server = get_server(f"curves-{tmp_path.name}", client_type="vue3")
+    return build_app(server, input_path=folder / "platen_warmup.toml", data_dir=folder, work_dir=tmp_path / "work")
+
+
+def run_now(panel, out: Path):
+    """Run the set-up now in the forms (in this thread) and keep it, as the run bar does when it ends."""
+    from heatsoak.core.case.casefile import case_from_data
+    from heatsoak.plugin.results import actions as results_actions
+    from heatsoak.plugin.setup import actions as setup_actions
+
+    data, _ = setup_actions.current_case(panel)
+    case = case_from_data(data, panel.case_dir, mesh=panel.mesh)
+    run = panel.runs.add(data, out, run_case(case, out), mesh=case.mesh)
+    results_actions.runs_changed(panel, show=run.id)
+    return run
+
+
+def test_a_typed_threshold_goes_with_one_probe_only(panel):
+    state = panel.state
+    state.update({"hs_p_name": "A", "hs_p_x": 30.0, "hs_p_y": 0.0, "hs_p_z": 19.0, "hs_p_threshold": 40})
+    panel.ctrl.hs_add_probe()
+    state.update({"hs_p_name": "B", "hs_p_x": 40.0})
+    panel.ctrl.hs_add_probe()
+    probes = {p["name"]: p["threshold"] for p in state.hs_probes}
+    assert probes["A"] == 40 and probes["B"] is None
+
+
+def test_new_runs_tick_themselves_and_their_comparison_and_another_mesh_clears_the_screen(panel, tmp_path):
+    from heatsoak.plugin.load import actions as load_actions
+
+    state = panel.state
+    for i in (1, 2, 3):
+        run_now(panel, tmp_path / f"run{i}")
+    assert state.hs_compare == [3, 2] and state.hs_shown_run == 3 and state.hs_runs_here == 3
+    state.update({"hs_progress_text": "complete: 180 steps", "hs_run_error": "old", "hs_export_error": "old"})
+    assert load_actions.open_case(panel, Path(panel.data_dir) / "lblock_cooling.toml")
+    assert (state.hs_progress_text, state.hs_run_error, state.hs_export_error, state.hs_n_frames) == ("", "", "", 0)
+    assert state.hs_runs_here == 0 and state.hs_compare == [] and state.hs_shown_run is None
+    assert state.hs_probe_fig["data"] == [] and state.hs_probe_table == []
+    run_now(panel, tmp_path / "run4")
+    assert state.hs_compare == [4] and {t["meta"]["run"] for t in state.hs_probe_fig["data"] if t.get("meta")} == {4}
+    assert load_actions.open_case(panel, Path(panel.data_dir) / "platen_warmup.toml")  # a new object, same content
+    assert state.hs_runs_here == 3 and state.hs_compare == [3, 2] and state.hs_shown_run == 3
+    state.hs_view = "results"
+    panel.state.flush()
+    from heatsoak.plugin.results import actions as results_actions
+
+    results_actions.build_field(panel)
+    assert state.hs_n_frames == len(panel.runs.get(3).series) > 1  # viewable in 3D again

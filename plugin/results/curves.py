@@ -7,7 +7,7 @@ here they are put in the state the browser's plot widgets draw from.
 from __future__ import annotations
 
 from heatsoak.plugin.results import figures
-from heatsoak.plugin.runs.here import is_here
+from heatsoak.plugin.runs.here import current_key, is_here
 
 #: What the statistic selector of the region plot offers.
 STAT_ITEMS = [{"title": "mean, min-max band", "value": "band"}, {"title": "mean", "value": "mean"},
@@ -53,7 +53,7 @@ def refresh_curves(panel) -> None:
         refresh_regions(panel)
         return
     probe_names = [n for r in runs for n in r.probes]
-    state.hs_probe_fig = (figures.probe_figure(runs) if probe_names
+    state.hs_probe_fig = (figures.probe_figure(runs, revision=current_key(panel)) if probe_names
                           else figures.empty_figure("No probes in these runs: add some in the set-up"))
     state.hs_probe_table = probe_rows(runs)
     names = figures.names_of(r.regions for r in runs)
@@ -71,7 +71,8 @@ def refresh_regions(panel) -> None:
         text = "Choose regions to draw" if runs else "Region curves show here after a run"
         state.hs_region_fig = figures.empty_figure(text)
         return
-    state.hs_region_fig = figures.region_figure(runs, state.hs_region_pick, state.hs_region_stat or "band")
+    state.hs_region_fig = figures.region_figure(runs, state.hs_region_pick, state.hs_region_stat or "band",
+                                                revision=current_key(panel))
 
 
 def probe_rows(runs) -> list:

@@ -65,8 +65,9 @@ def run_key(runs) -> list:
              "line": {"color": INK, "dash": DASHES[j % len(DASHES)], "width": 2}} for j, run in enumerate(runs)]
 
 
-def base_layout(ytitle: str, n_runs: int) -> dict:
-    """Axes, hover (every curve's value at the time under the mouse) and the legends' places."""
+def base_layout(ytitle: str, n_runs: int, revision: str = "keep") -> dict:
+    """Axes, hover (every curve's value at the time under the mouse) and the legends' places; the
+    user's zoom and hidden curves are kept while ``revision`` stays the same (e.g. the mesh's key)."""
     layout = {
         "margin": {"l": 56, "r": 12, "t": 30, "b": 44}, "autosize": True, "hovermode": "x unified",
         "font": {"size": 12, "color": INK}, "paper_bgcolor": "rgba(0,0,0,0)", "plot_bgcolor": "white",
@@ -74,7 +75,7 @@ def base_layout(ytitle: str, n_runs: int) -> dict:
         "yaxis": {"title": {"text": ytitle}, "gridcolor": GRID, "zeroline": False},
         "legend": {"orientation": "h", "x": 0, "xanchor": "left", "y": 1.0, "yanchor": "bottom",
                    "font": {"size": 11}, "groupclick": "togglegroup"},
-        "uirevision": "keep",  # zoom and hidden curves survive a new run added to the plot
+        "uirevision": revision,
     }
     if n_runs > 1:
         layout["legend2"] = {"orientation": "h", "x": 1, "xanchor": "right", "y": -0.16, "yanchor": "top",
@@ -83,7 +84,7 @@ def base_layout(ytitle: str, n_runs: int) -> dict:
     return layout
 
 
-def probe_figure(runs, unit: str = "°C") -> dict:
+def probe_figure(runs, unit: str = "°C", revision: str = "keep") -> dict:
     """Probe curves of ``runs`` (newest first), thresholds and their first crossings.
 
     Parameters
@@ -93,6 +94,8 @@ def probe_figure(runs, unit: str = "°C") -> dict:
         {name: {"threshold", "crossing_time"}}.
     unit : str
         Temperature unit shown.
+    revision : str
+        Zoom and hidden curves are kept across figures of the same revision (a new run added).
 
     Returns
     -------
@@ -110,7 +113,7 @@ def probe_figure(runs, unit: str = "°C") -> dict:
                                   not shown, run.id, unit))
                 shown = True
         data += _threshold_traces(runs, name, colour(i), unit)
-    layout = base_layout(f"temperature [{unit}]", len(runs))
+    layout = base_layout(f"temperature [{unit}]", len(runs), revision)
     return {"data": data + run_key(runs), "layout": layout}
 
 
@@ -150,7 +153,7 @@ def default_regions(runs, most: int = MOST_REGIONS) -> list:
     return sorted(names, key=lambda n: -last.get(n, -np.inf))[:most]
 
 
-def region_figure(runs, regions=None, stat: str = "band", unit: str = "°C") -> dict:
+def region_figure(runs, regions=None, stat: str = "band", unit: str = "°C", revision: str = "keep") -> dict:
     """Region curves of ``runs`` (newest first): one colour per region, one line style per run.
 
     Parameters
@@ -161,6 +164,8 @@ def region_figure(runs, regions=None, stat: str = "band", unit: str = "°C") -> 
         Regions to draw (default: :func:`default_regions`).
     stat : {"band", "mean", "min", "max"}
         A statistic, or the mean with a shaded band from min to max.
+    unit, revision : str
+        As for :func:`probe_figure`.
     """
     if stat not in STATS:
         raise ValueError(f"region statistic {stat!r}: allowed are {', '.join(STATS)}")
@@ -180,7 +185,7 @@ def region_figure(runs, regions=None, stat: str = "band", unit: str = "°C") -> 
             key = "mean" if stat == "band" else stat
             data.append(_line(r["time"], r[key], f"{name} {key}", name, col, dash, not shown, run.id, unit))
             shown = True
-    layout = base_layout(f"temperature [{unit}]", len(runs))
+    layout = base_layout(f"temperature [{unit}]", len(runs), revision)
     return {"data": data + run_key(runs), "layout": layout}
 
 

@@ -93,9 +93,9 @@ def curves(panel) -> None:
     with html.Div(v_show="hs_runs_here && hs_pane != 'view'", id="hs-curves",
                   classes=("hs_pane == 'curves' ? 'hs-curves hs-curves-max' : 'hs-curves'",)):
         curves_bar(panel)
+        with html.Div(v_if="hs_curves_tab == 'probes' && hs_time_error", classes="hs-curves-note px-3"):
+            time_error.widget()
         with html.Div(v_show="hs_curves_tab == 'probes'", classes="hs-curves-body hs-probe-body"):
-            with html.Div(classes="hs-row-full", v_if="hs_time_error"):
-                time_error.widget()
             with html.Div(classes="hs-fig hs-probe-fig", id="hs-probe-plot"):
                 plotly.Figure(state_variable_name="hs_probe_fig", display_logo=False, responsive=True,
                               mode_bar_buttons_to_remove=MODEBAR_OFF,
