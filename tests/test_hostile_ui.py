@@ -58,6 +58,10 @@ def folders(tmp_path_factory):
     for name, text in cases.items():
         (data / f"{name}.toml").write_text(text)
     (data / "binary.toml").write_bytes(b"\xff\xfe\x00garbage\x00")
+    (data / ".notes").write_text("hunter2-private, 1\n")  # files of the data folder that are not tables or meshes
+    (data / "key.msh").write_text("-----BEGIN hunter2-private KEY-----\n")
+    (data / "notes_table.toml").write_text(case_text(table='".notes"'))
+    (data / "key_mesh.toml").write_text(case_text(mesh='"key.msh"'))
     return data, up
 
 
@@ -90,7 +94,8 @@ def clear(heat) -> None:
 def unchanged(heat, folders) -> None:
     """The demo case is still the one open, its mesh from the data folder, nothing from outside shown."""
     assert heat.mesh_path == folders[0] / "platen.msh"
-    assert "secret-line" not in message(heat) and "root:" not in message(heat) and "4242" not in message(heat)
+    shown = message(heat)
+    assert not any(text in shown for text in ("secret-line", "root:", "4242", "hunter2")), shown
 
 
 #: Cases in the data folder naming what they may not: (file, words the message must hold).
@@ -99,7 +104,7 @@ HOSTILE_CASES = [
     ("dotdot_mesh", "'../outside.msh': leads outside the data folder"), ("link_mesh", "'out.msh': leads outside"),
     ("dirlink_mesh", "'updir/outside.msh': leads outside"), ("nul_mesh", "NUL character"),
     ("fifo_mesh", "FIFO"), ("folder_mesh", "is a folder"), ("deep", "nested too deeply"),
-    ("binary", "binary.toml"),
+    ("binary", "binary.toml"), ("key_mesh", "key.msh"),
 ]
 
 
@@ -115,12 +120,13 @@ def test_a_listed_case_naming_a_mesh_it_may_not_read_is_refused(panel, folders, 
     ("passwd_table", "table = '/etc/passwd': absolute file names are not allowed"),
     ("secret_table", "table = '../secret.csv': leads outside the data folder"),
     ("zero_table", "table = 'zero.csv': leads outside"), ("fifo_table", "table = 'pipe.csv': is a FIFO"),
+    ("notes_table", ".notes, row 1: time (content not shown)"),
 ])
 def test_a_listed_case_naming_a_table_it_may_not_read_opens_with_the_table_refused(panel, folders, name, words):
     clear(panel)
     panel.ctrl.hs_open(f"{name}.toml", "case")
     assert f"boundary.base: {words}" in message(panel)
-    assert "secret-line" not in message(panel) and "root:" not in message(panel)
+    assert not any(text in message(panel) for text in ("secret-line", "root:", "hunter2")), message(panel)
     panel.ctrl.hs_open(DEMO, "case")  # back to the demo case for the next test
     unchanged(panel, folders)
 

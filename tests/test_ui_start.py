@@ -131,7 +131,7 @@ def start_ui(args, log: Path) -> subprocess.Popen:
 
 
 def wait_served(proc, port: int, log: Path) -> None:
-    end = time.time() + 60
+    end = time.time() + 150  # a start takes a few seconds, far more on a machine loaded by other work
     while time.time() < end:
         try:
             with urllib.request.urlopen(f"http://127.0.0.1:{port}/", timeout=2) as r:

@@ -3,13 +3,14 @@
 from __future__ import annotations
 
 import os
+import re
 from pathlib import Path
 
 from heatsoak.core.case.casefile import read_case_toml
 from heatsoak.core.case.paths import CasePaths
 from heatsoak.core.errors import CaseError, InputError
 from heatsoak.core.mesh.inspect import summarize
-from heatsoak.core.mesh.read import UNITS, read_mesh
+from heatsoak.core.mesh.read import UNITS, read_mesh, unit_scale
 from heatsoak.core.problem.schedule import table_from_text
 from heatsoak.plugin.load import guard, listing
 from heatsoak.plugin.results import actions as results_actions
@@ -128,11 +129,16 @@ def open_mesh(panel, path: Path, keep_forms: bool = False) -> bool:
     state = panel.state
     state.hs_mesh_error = ""
     paths = case_paths(panel, path)
-    try:  # a regular file within the size limit, its XDMF data files in the same folder
+    try:  # the unit (typed or from the case); a regular file within the size limit, its XDMF data beside it
+        unit_scale(state.hs_unit)
         paths.resolve_mesh("mesh file", Path(path).name)
-        mesh = read_mesh(path, state.hs_unit, float(state.hs_feature_angle))
-    except (InputError, OSError, ValueError) as exc:
+    except InputError as exc:
         state.hs_mesh_error = _plain(exc, path)
+        return False
+    try:
+        mesh = read_mesh(path, state.hs_unit, float(state.hs_feature_angle))
+    except (InputError, OSError, ValueError) as exc:  # a reader's message may quote the file: not shown
+        state.hs_mesh_error = without_content(_plain(exc, path), keep=repr(Path(path).name))
         return False
     panel.mesh, panel.mesh_path, panel.root = mesh, Path(path), paths.root
     panel.case_dir = Path(path).parent  # the forms' case names the mesh relative to it
@@ -150,6 +156,18 @@ def open_mesh(panel, path: Path, keep_forms: bool = False) -> bool:
 def _plain(exc, path) -> str:
     """An error message without the machine's folders (the user knows the file by its name)."""
     return str(exc).replace(str(Path(path).parent) + "/", "")
+
+
+#: What stands in a message for the text it quoted from a file.
+NOT_SHOWN = "(content not shown)"
+
+
+def without_content(message: str, keep: str = "") -> str:
+    """``message`` with the file text it quotes (``'...'``, ``"..."``, ``[...]``) replaced by
+    :data:`NOT_SHOWN`, except ``keep`` (the file's own quoted name): a case may name any file of the
+    data folder as a table or mesh, and what is in it must not reach the browser that way."""
+    parts = re.split(r"""('[^']*'|"[^"]*"|\[[^\]]*\])""", message)
+    return "".join(p if i % 2 == 0 or p == keep else NOT_SHOWN for i, p in enumerate(parts))
 
 
 def case_paths(panel, path) -> CasePaths:
@@ -200,7 +218,10 @@ def fill_forms_from_case(panel, data: dict, paths: CasePaths) -> None:
 
     def read_table(name):
         _, text = paths.read_text("table", name)
-        table = table_from_text(text, str(name))
+        try:
+            table = table_from_text(text, str(name))
+        except InputError as exc:  # say which row is wrong, never what it holds (the file may not be a table)
+            raise InputError(without_content(str(exc))) from None
         return table.times, table.values
 
     bcs = dict(panel.bcs)
