@@ -5,6 +5,7 @@ A module using them defines a module-scoped ``data_dir`` fixture (a folder holdi
 
 from __future__ import annotations
 
+import os
 import sys
 from pathlib import Path
 
@@ -28,3 +29,12 @@ def page(server):
     from uidriver import browse
 
     yield from browse(server)
+
+
+@pytest.fixture(scope="module")
+def shots(tmp_path_factory) -> Path:
+    """Folder of the module's screenshots: $HEATSOAK_UI_SHOTS or a new temporary one (printed)."""
+    folder = Path(os.environ.get("HEATSOAK_UI_SHOTS") or tmp_path_factory.mktemp("ui-shots"))
+    folder.mkdir(parents=True, exist_ok=True)
+    print(f"\nUI screenshots in {folder}")
+    return folder

@@ -8,7 +8,6 @@ temporary folder; the path is printed.
 from __future__ import annotations
 
 import csv
-import os
 import shutil
 import subprocess
 import sys
@@ -51,14 +50,6 @@ endloop
 endfacet
 endsolid flat
 """
-
-
-@pytest.fixture(scope="module")
-def shots(tmp_path_factory) -> Path:
-    folder = Path(os.environ.get("HEATSOAK_UI_SHOTS") or tmp_path_factory.mktemp("ui-shots"))
-    folder.mkdir(parents=True, exist_ok=True)
-    print(f"\nUI screenshots in {folder}")
-    return folder
 
 
 @pytest.fixture(scope="module")

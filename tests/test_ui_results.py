@@ -6,7 +6,6 @@ Screenshots go to $HEATSOAK_UI_SHOTS or a pytest temporary folder (the path is p
 
 from __future__ import annotations
 
-import os
 import re
 from pathlib import Path
 
@@ -19,14 +18,6 @@ playwright_api = require_browser()
 #: What the plot widget holds, read from the page: (run, curve) of every curve drawn.
 CURVES_JS = ("sel => [...document.querySelector(sel + ' .js-plotly-plot').data]"
              ".filter(t => t.meta).map(t => [t.meta.run, t.meta.curve])")
-
-
-@pytest.fixture(scope="module")
-def shots(tmp_path_factory) -> Path:
-    folder = Path(os.environ.get("HEATSOAK_UI_SHOTS") or tmp_path_factory.mktemp("results-shots"))
-    folder.mkdir(parents=True, exist_ok=True)
-    print(f"\nUI screenshots in {folder}")
-    return folder
 
 
 @pytest.fixture(scope="module")
