@@ -90,6 +90,13 @@ def test_four_runs_fit_1280x800_and_1920x1080_with_export_in_reach(page, shots):
         page.wait_for_timeout(800)
         page.screenshot(path=str(shots / f"r3-both-{width}x{height}.png"))
         assert in_window(page, "#hs-probe-plot") and in_window(page, ".hs-view")
+    page.set_viewport_size({"width": 1280, "height": 800})
+    page.click("#hs-tab-regions")
+    page.wait_for_selector("#hs-region-plot .js-plotly-plot .scatterlayer .trace")
+    page.screenshot(path=str(shots / "r3-regions-1280x800.png"))
+    for selector in ("#hs-region-pick", "#hs-region-stat", "#hs-curves-csv", "#hs-tab-probes"):
+        assert in_window(page, selector), selector
+    page.click("#hs-tab-probes")
     page.set_viewport_size({"width": 1280, "height": 600})  # the run list must scroll, export stay in reach
     page.wait_for_timeout(500)
     assert in_window(page, "#hs-export-movie") and in_window(page, "#hs-disclaimer")

@@ -10,7 +10,7 @@ from heatsoak.plugin.results import figures
 from heatsoak.plugin.runs.here import current_key, is_here
 
 #: What the statistic selector of the region plot offers.
-STAT_ITEMS = [{"title": "mean, min-max band", "value": "band"}, {"title": "mean", "value": "mean"},
+STAT_ITEMS = [{"title": "mean+band", "value": "band"}, {"title": "mean", "value": "mean"},
               {"title": "min", "value": "min"}, {"title": "max", "value": "max"}]
 
 

@@ -122,15 +122,15 @@ def curves_bar(panel) -> None:
         with html.Div(v_if="hs_curves_tab == 'regions'", classes="d-flex align-center ga-2"):
             with v3.VSelect(v_model=("hs_region_pick",), items=("hs_region_names",), multiple=True, label="regions",
                             density="compact", variant="outlined", hide_details=True, id="hs-region-pick",
-                            style="min-width: 160px; max-width: 260px"):
+                            classes="hs-bar-select"):
                 with v3.Template(v_slot_selection="{ item, index }"):
-                    html.Span("{{ item.title }}{{ index < Math.min(hs_region_pick.length, 2) - 1 ? ',' : '' }}",
-                              v_if="index < 2", classes="mr-1 text-truncate")
-                    html.Span("+{{ hs_region_pick.length - 2 }}", v_if="index === 2", classes="text-caption")
+                    html.Span("{{ hs_region_pick.length === 1 ? item.title : "
+                              "hs_region_pick.length + ' of ' + hs_region_names.length }}",
+                              v_if="index === 0", classes="text-truncate")
             v3.VSelect(v_model=("hs_region_stat",), items=("hs_stat_items",), label="show", density="compact",
-                       variant="outlined", hide_details=True, style="width: 190px", id="hs-region-stat")
-        v3.VBtn("CSV", prepend_icon="mdi-table-arrow-down", size="small", variant="text", color="#2f5d50",
-                id="hs-curves-csv", title="the curves plotted here, as CSV",
+                       variant="outlined", hide_details=True, classes="hs-bar-select", id="hs-region-stat")
+        v3.VBtn(icon="mdi-table-arrow-down", size="small", variant="text", color="#2f5d50",
+                id="hs-curves-csv", title="save the curves plotted here as CSV",
                 click=save_js("`${hs_curves_tab}-curves.csv`", "trigger('hs_export_curves', [hs_curves_tab])",
                               "'text/csv'"))
 
