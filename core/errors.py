@@ -57,6 +57,11 @@ class PathError(InputError):
         super().__init__(f"{key} = {value!r}: {detail}")
 
 
+class ImplausibleError(InputError):
+    """A computed temperature no physical body can have (overflow, below absolute zero, hotter
+    than any solid); the message names the inputs that drive it."""
+
+
 class StabilityError(InputError):
     """A time step above the stability limit of an explicit theta-method."""
 

@@ -13,13 +13,17 @@ from pathlib import Path
 import numpy as np
 from heatsoak.core.case.casefile import Case, check_case, load_case, stability_problem
 from heatsoak.core.case.paths import describe_limits
-from heatsoak.core.errors import CaseError, HeatsoakError, ResultsError
+from heatsoak.core.case.plausible import drivers, problem_parts, result_problem
+from heatsoak.core.errors import CaseError, HeatsoakError, ImplausibleError, ResultsError
 from heatsoak.core.results.probes import ProbeSet
 from heatsoak.core.results.record import Recorder, bound_warnings
 from heatsoak.core.results.time_error import TimeErrorRecord, margin_warnings
 from heatsoak.core.results.writer import ResultFiles
 from heatsoak.core.solve.stepping import ThetaMethod
 from heatsoak.core.solve.stepping.base import planned_step_times
+
+#: Relative energy imbalance above which a run's summary warns (a sound run is near rounding, 1e-12).
+IMBALANCE_WARN = 1e-3
 
 #: Exit code of a run stopped with Ctrl-C (128 + SIGINT, common practice).
 EXIT_CANCELLED = 130
@@ -72,8 +76,8 @@ def _summary(case: Case, stepper, rec: Recorder, files: ResultFiles, status: str
         "probes": {p.name: {"threshold": p.threshold, "crossing_time": rec.crossings().get(p.name)}
                    for p in case.probes},
         **errors,
-        "warnings": (list(case.mesh.warnings) + getattr(rec.probes, "notes", []) + _bound_warnings(case, rec)
-                     + error_warnings),
+        "warnings": (list(case.warnings) + _energy_warning(case, stepper.energy()) + list(case.mesh.warnings)
+                     + getattr(rec.probes, "notes", []) + _bound_warnings(case, rec) + error_warnings),
         "energy": stepper.energy(),
         "solver": stepper.report(),
     }
@@ -94,6 +98,23 @@ def _interrupts_deferred():
         signal.signal(signal.SIGINT, old)
         if caught:
             raise KeyboardInterrupt
+
+
+def _plausible(case: Case, t: float, T: np.ndarray) -> None:
+    """ImplausibleError when the field ``T`` [degC] at ``t`` [s] is one no body can have; the
+    step is then not written, and the run ends on the step before."""
+    message = result_problem(t, float(T.min()), float(T.max()), case.data, problem_parts(case.problem))
+    if message:
+        raise ImplausibleError(message)
+
+
+def _energy_warning(case: Case, energy: dict) -> list:
+    """A loud warning when the energy balance is off by more than :data:`IMBALANCE_WARN`."""
+    off = energy.get("relative_imbalance", 0.0)
+    if not off > IMBALANCE_WARN:
+        return []
+    return [f"THE ENERGY BALANCE IS OFF BY {100 * off:.3g} %: these results are not reliable; inputs that may "
+            f"cause it: {drivers(case.data, problem_parts(case.problem))}"]
 
 
 def _last_field(files: ResultFiles, terr, stepper, status: str, error: str):
@@ -156,6 +177,7 @@ def run_case(case: Case, out_dir, progress=None, should_stop=None, assembler=Non
     try:
         for t, T in stepper.steps():
             t1 = _time.perf_counter()
+            _plausible(case, t, T)
             with _interrupts_deferred():
                 written = files.step(t, *rec.record(t, T), T)
             terr.record(stepper.estimator.error, written)
@@ -271,6 +293,8 @@ def cmd_check(args) -> int:
         return 2
     print(f"ok: {args.case}")
     print("\n".join(describe_case(case)))
+    for w in case.warnings:
+        print(f"warning   {w}")
     for w in [*case.mesh.warnings, *_probe_set(case).notes]:
         print(f"note      {w}")
     print(f"limits    {describe_limits()}")

@@ -49,7 +49,7 @@ from __future__ import annotations
 
 import math
 import os
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 try:
@@ -73,6 +73,7 @@ from heatsoak.core.case.check import (
     _read_time,
 )
 from heatsoak.core.case.paths import CasePaths
+from heatsoak.core.case.plausible import input_problems
 from heatsoak.core.errors import CaseError, PathError, StabilityError
 from heatsoak.core.mesh.mesh import Mesh
 from heatsoak.core.problem.problem import Problem, TimeSettings
@@ -110,6 +111,8 @@ class Case:
         Write the temperature field every this many steps (and the last).
     mesh_file : Path
     unit : str
+    warnings : list of str
+        Inputs outside their usual range (:mod:`~heatsoak.core.case.plausible`).
     """
 
     path: Path | None
@@ -121,6 +124,7 @@ class Case:
     output_every: int
     mesh_file: Path
     unit: str
+    warnings: list = field(default_factory=list)
 
     @property
     def mesh(self) -> Mesh:
@@ -152,6 +156,10 @@ def _build(data, paths: CasePaths, mesh: Mesh | None, source: str, stability: bo
         "probes": _read_probes(ck, data, mesh, unit),
         "output_every": _read_output(ck, data),
     }
+    errors, warnings = input_problems(data, parts)
+    for key, message in errors:
+        ck.add(key, message)
+    parts["warnings"] = [f"{key}: {message}" for key, message in warnings]
     if stability and not ck.issues:
         _check_stability(ck, parts)
     return ck.issues, parts
@@ -211,7 +219,7 @@ def case_from_data(data: dict, base_dir, mesh: Mesh | None = None, path=None, ro
     problem = Problem(parts["mesh"], parts["materials"], parts["boundaries"], parts["initial"])
     return Case(path=None if path is None else Path(path), base_dir=Path(base_dir), data=data, problem=problem,
                 time=parts["time"], probes=parts["probes"], output_every=parts["output_every"],
-                mesh_file=parts["mesh_file"], unit=parts["unit"])
+                mesh_file=parts["mesh_file"], unit=parts["unit"], warnings=parts["warnings"])
 
 
 def read_case_toml(path, root=None) -> dict:

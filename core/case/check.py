@@ -390,11 +390,26 @@ def _read_probes(ck: _Checker, data: dict, mesh, unit: str) -> list:
         out.append(Probe(name, np.array(at, dtype=float) * UNITS[unit], thr))
         keys.append(i)
     if mesh is not None and out:
-        _, cells, _, dist = place(mesh, np.array([p.point for p in out]))
-        for j in np.flatnonzero(cells < 0):
-            ck.bad(f"probe[{keys[j]}].at", sec[keys[j]]["at"],
-                   f"the point is outside the mesh, {dist[j] / UNITS[unit]:.4g} {unit} from its surface")
+        _place_probes(ck, mesh, out, [sec[i]["at"] for i in keys], keys, unit)
     return out
+
+
+def _place_probes(ck: _Checker, mesh, probes, given, keys, unit: str) -> None:
+    """Report the probes outside the mesh; a point far outside its box (1e300) is not searched for."""
+    pts = np.array([p.point for p in probes])
+    lo, hi = mesh.points.min(axis=0), mesh.points.max(axis=0)
+    far = np.any(np.abs(pts - 0.5 * (lo + hi)) > 1e6 * max(float(np.linalg.norm(hi - lo)), 1e-300), axis=1)
+    scale = UNITS[unit]
+    span = f"{' x '.join(f'{e:.4g}' for e in (hi - lo) / scale)} {unit}"
+    for j in np.flatnonzero(far):
+        ck.bad(f"probe[{keys[j]}].at", given[j], f"the point is far outside the mesh, which spans {span}")
+    near = np.flatnonzero(~far)
+    if near.size:
+        _, cells, _, dist = place(mesh, pts[near])
+        for j, c, d in zip(near, cells, dist):
+            if c < 0:
+                ck.bad(f"probe[{keys[j]}].at", given[j], f"the point is outside the mesh, {d / scale:.4g} {unit} "
+                       "from its surface")
 
 
 def _read_output(ck: _Checker, data: dict) -> int:

@@ -15,6 +15,7 @@ from pathlib import Path
 
 import numpy as np
 from heatsoak.core.errors import InputError, MeshError
+from heatsoak.core.mesh.bounds import check_coordinates
 from heatsoak.core.mesh.files import read_raw
 from heatsoak.core.mesh.geometry import curved_cells, sampled_jacobians
 from heatsoak.core.mesh.mesh import TET_EDGES, Mesh
@@ -154,11 +155,7 @@ def build_mesh(
     notes = list(warnings)
     cells, cell_region, original = _drop_duplicates(cells, cell_region, notes)
     points, cells, tagged_faces = _drop_unused(points, cells, tagged_faces, notes)
-    bad = ~np.isfinite(points).all(axis=1)
-    if bad.any():
-        raise MeshError(
-            f"{bad.sum()} nodes of {where} have NaN or infinite coordinates (first: node {np.argmax(bad)})"
-        )
+    check_coordinates(points, where)
     _check_solid(points, where)
     cells = _fix_volumes(points, cells, original, where, notes)
     if cells.shape[1] == 10:

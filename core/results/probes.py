@@ -95,6 +95,13 @@ def locate(mesh: Mesh, points, tol: float = TOL):
     lam : (k, 4) barycentric coordinates in that cell's vertex tetrahedron
     """
     pts = np.asarray(points, dtype=float).reshape(-1, 3)
+    lo, hi = mesh.points.min(axis=0), mesh.points.max(axis=0)
+    pad = 1e-6 * float(np.linalg.norm(hi - lo))
+    in_box = np.all((pts >= lo - pad) & (pts <= hi + pad), axis=1)  # others are outside; far ones (1e300) overflow
+    if not in_box.all():
+        cells, lam = np.full(len(pts), -1, dtype=np.int64), np.zeros((len(pts), 4))
+        cells[in_box], lam[in_box] = locate(mesh, pts[in_box], tol)
+        return cells, lam
     k = len(pts)
     cells, lam = np.full(k, -1, dtype=np.int64), np.zeros((k, 4))
     if k == 0:
