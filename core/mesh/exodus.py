@@ -80,12 +80,15 @@ def _side_faces(raw, elements: np.ndarray, side: np.ndarray) -> list:
 
 def name_blocks(raw, path: Path):
     """``raw`` rebuilt with one named cell set per element block and per side set (its faces as
-    triangles and quadrilaterals)."""
+    triangles and quadrilaterals), and notes; ``raw`` as it was when the names cannot be read."""
     import meshio
 
-    names, side_sets = _read(path)
+    try:
+        names, side_sets = _read(path)
+    except (KeyError, ValueError, IndexError, OSError) as exc:  # names are a bonus: keep the mesh
+        return raw, (f"{path}: element block and side set names not read ({type(exc).__name__}: {exc})",)
     if len(names) != len(raw.cells):
-        return raw
+        return raw, ()
     cells = [(b.type, b.data) for b in raw.cells]
     members = [(name, k) for k, name in enumerate(names)]
     for name, elements, side in side_sets:
@@ -95,4 +98,4 @@ def name_blocks(raw, path: Path):
     sets = {}
     for name, k in members:
         sets.setdefault(name, [None] * len(cells))[k] = np.arange(len(cells[k][1]))
-    return meshio.Mesh(raw.points, cells, cell_sets=sets)
+    return meshio.Mesh(raw.points, cells, cell_sets=sets), ()

@@ -165,7 +165,10 @@ def read_raw(path: Path):
             raw, notes = _meshio_read(fmt, str(path))
             if fmt == "gmsh":
                 _check_msh_nodes(path)
-            return (name_blocks(raw, path) if fmt == "exodus" else raw), notes
+            if fmt == "exodus":
+                raw, more = name_blocks(raw, path)
+                notes = (*notes, *more)
+            return raw, notes
         except MeshError:
             raise
         except (Exception, SystemExit) as exc:  # noqa: BLE001 - each reader fails its own way on a bad file
