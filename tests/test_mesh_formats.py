@@ -224,3 +224,19 @@ def test_exodus_side_sets_name_the_boundary_faces_they_list(tmp_path):
     assert len(mesh.region_names) == 2 and mesh.group_names[0] == "outlet"  # blocks named by their ids
     np.testing.assert_allclose(_areas(mesh)["outlet"], 1.0, rtol=1e-12)
     np.testing.assert_allclose(mesh.points[mesh.group_nodes("outlet"), 0], 2.0)
+
+
+def test_a_negative_physical_tag_in_an_msh41_entity_list_is_the_same_group(tmp_path):
+    path = two_boxes(tmp_path / "n41.msh", 4.1, size=0.8)
+    lines = path.read_text().splitlines()
+    at = lines.index("$Entities")
+    n_points, n_curves, n_surfaces, _ = map(int, lines[at + 1].split())
+    first = at + 2 + n_points + n_curves
+    tagged = [k for k in range(first, first + n_surfaces) if int(lines[k].split()[7])]
+    parts = lines[tagged[0]].split()  # tag, bounding box (6), number of physical tags, the tags, ...
+    parts[8] = str(-int(parts[8]))
+    lines[tagged[0]] = " ".join(parts)
+    path.write_text("\n".join(lines) + "\n")
+    mesh = read_mesh(path)
+    assert mesh.group_names[:2] == ("xmin", "xmax") and len(mesh.group_names) == 6
+    np.testing.assert_allclose([_areas(mesh)[n] for n in ("xmin", "xmax")], [1.0, 1.0], rtol=1e-12)
