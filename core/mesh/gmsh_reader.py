@@ -87,7 +87,9 @@ def read_with_gmsh(path: Path, why: str = ""):
     except MeshError:
         raise
     except Exception as exc:  # noqa: BLE001 - gmsh raises a bare Exception with its log line
-        raise MeshError(f"cannot read mesh file {path} with gmsh: {exc}") from None
+        meshio_said = f"{why}; " if why else ""
+        raise MeshError(f"cannot read mesh file {path} (corrupt or truncated?): {meshio_said}"
+                        f"gmsh's own reader: {exc}") from None
 
 
 def _model_mesh(gmsh):
