@@ -12,7 +12,8 @@ from pathlib import Path
 import pytest
 from heatsoak.core.app.runner import run_case
 from heatsoak.core.case.casefile import load_case
-from uidriver import DEMO, copy_demo_files, require_browser, wait_for
+import tomllib
+from uidriver import DEMO, copy_demo_files, open_listed, open_section, require_browser, wait_for
 
 pytestmark = pytest.mark.browser
 playwright_api = require_browser()
@@ -36,6 +37,9 @@ def data_dir(tmp_path_factory, headless) -> Path:
     text = DEMO.read_text()
     assert probe in text
     (folder / DEMO.name).write_text(text.replace(probe, f"{probe}threshold = {rim_max + 1e-4!r}\n"))
+    # the demo asking for a tolerance instead of a step
+    assert "\nstep = 20\n" in text
+    (folder / "adaptive.toml").write_text(text.replace("\nstep = 20\n", "\ntolerance = 0.05\n"))
     return folder
 
 
@@ -53,3 +57,18 @@ def test_the_time_step_error_is_shown_beside_the_probe_curves_and_warns_on_a_thi
     assert "probe rim" in warning.inner_text() and "not reached" in warning.inner_text()
     assert "top-mid" not in warning.inner_text()  # crossed by far more than its error
     page.locator("#hs-curves").screenshot(path=str(tmp_path / "curves.png"))
+
+
+def test_a_case_with_a_tolerance_keeps_it_through_the_ui_and_runs_adaptive_steps(page, data_dir, tmp_path):
+    open_section(page, "Mesh")
+    open_listed(page, "adaptive.toml")
+    page.wait_for_selector("#hs-fact-unit >> text=from adaptive.toml", timeout=30_000)
+    page.wait_for_selector("#hs-run:not([disabled])", timeout=15_000)
+    with page.expect_download() as dl:
+        page.click("#hs-export-case")
+    dl.value.save_as(tmp_path / "exported.toml")
+    time = tomllib.loads((tmp_path / "exported.toml").read_text())["time"]
+    assert time["tolerance"] == 0.05 and time["step"] == 3600 / 32  # the largest step the run takes
+    page.click("#hs-run")
+    wait_for(lambda: "adaptive steps, tolerance 0.05 K" in page.inner_text("#hs-time-error"), 90,
+             what="the adaptive run's error line")

@@ -15,6 +15,7 @@ from heatsoak.core.errors import InputError
 from heatsoak.core.mesh.read import UNITS
 from heatsoak.core.problem.materials import SOURCE_NOTE
 from heatsoak.core.problem.schedule import parse_schedule
+from heatsoak.core.solve.stepping.adaptive import ADAPTIVE_STEPS
 from heatsoak.core.solve.stepping.theta import THETA_PRESETS
 from heatsoak.plugin.load import listing
 from heatsoak.plugin.results import plots
@@ -36,7 +37,7 @@ from heatsoak.plugin.setup.probe_notes import placeable, probe_notes
 BC_FIELDS = ("kind", "shape", "value", "start", "end", "at", "over", "table", "h")
 TIME_KEYS = ("hs_t_end", "hs_t_step", "hs_t_theta", "hs_t_mass", "hs_initial", "hs_every")
 #: Keys of a case file's [time] the forms do not edit but keep.
-KEPT_TIME_KEYS = ("solver", "start_steps")
+KEPT_TIME_KEYS = ("solver", "start_steps", "tolerance")
 
 
 def register(panel) -> None:
@@ -226,7 +227,10 @@ def set_forms(panel, bcs: dict, mats: dict, case: dict) -> None:
     time = case.get("time") if isinstance(case.get("time"), dict) else {}
     panel.kept_time = {k: time[k] for k in KEPT_TIME_KEYS if k in time}
     panel.title = case.get("title") if isinstance(case.get("title"), str) else ""
-    state.update({"hs_t_end": time.get("end", 600.0), "hs_t_step": time.get("step", 10.0),
+    step = time.get("step", 10.0)
+    if "step" not in time and "tolerance" in time and isinstance(time.get("end"), (int, float)):
+        step = time["end"] / ADAPTIVE_STEPS  # the largest step of a run given a tolerance alone
+    state.update({"hs_t_end": time.get("end", 600.0), "hs_t_step": step,
                   "hs_t_theta": time.get("theta", 1.0), "hs_t_mass": time.get("mass", "consistent"),
                   "hs_initial": (case.get("initial") or {}).get("temperature", 20.0),
                   "hs_every": (case.get("output") or {}).get("every", 1)})

@@ -90,12 +90,18 @@ class StepDoubling:
         self.error = np.zeros_like(self._U)
         self._pending = None
 
-    def step(self, t: float, t_new: float, T_new: np.ndarray, theta: float, local: bool = False) -> None:
+    def step(self, t: float, t_new: float, T_new: np.ndarray, theta: float, local: bool = False,
+             increment=None) -> None:
         """March the companion over the run's step from ``t`` to ``t_new`` (two half steps) and
-        estimate the error of the run's ``T_new``; kept pending until :meth:`accept`."""
+        estimate the error of the run's ``T_new``; kept pending until :meth:`accept`.
+
+        ``increment``: the run's free-node increment over the step [K]; half of it starts an
+        iterative solver on each half step.
+        """
         tm = t + 0.5 * (t_new - t)
-        U = self.stepper.bare_step(t, tm, self._U, theta)
-        U = self.stepper.bare_step(tm, t_new, U, theta)
+        guess = None if increment is None else 0.5 * increment
+        U = self.stepper.bare_step(t, tm, self._U, theta, guess)
+        U = self.stepper.bare_step(tm, t_new, U, theta, guess)
         E = self.factor * (T_new - U)
         if local:
             carried = self.stepper.propagate(t_new - t, theta, self.error)

@@ -299,10 +299,10 @@ class ThetaMethod(Integrator):
         T_new[p] += jump
         return float(self.ops.mass_apply(np.bincount(p, weights=jump, minlength=T_new.shape[0])).sum())
 
-    def bare_step(self, t: float, t_new: float, T: np.ndarray, theta: float) -> np.ndarray:
+    def bare_step(self, t: float, t_new: float, T: np.ndarray, theta: float, x0=None) -> np.ndarray:
         """The state at ``t_new`` from ``T`` at ``t`` by one theta step, jumps at ``t_new`` included;
-        nothing is recorded (for error estimates)."""
-        T_new = self._step(t, t_new, T, theta)[0]
+        nothing is recorded (for error estimates). ``x0``: a guess of the free-node increment."""
+        T_new = self._step(t, t_new, T, theta, x0)[0]
         self._jump(t_new, T_new)
         return T_new
 
@@ -333,7 +333,7 @@ class ThetaMethod(Integrator):
         self._energy["stored_J"] += dE
         self._energy["dirichlet_in_J"] += dE
         if self.estimator is not None:
-            self.estimator.step(t, t_new, T_new, theta, local=local)
+            self.estimator.step(t, t_new, T_new, theta, local=local, increment=dTf)
         return T_new
 
     def _advance(self, t: float, t_new: float, T: np.ndarray) -> np.ndarray:
