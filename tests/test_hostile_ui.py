@@ -6,6 +6,8 @@ and leaves the case that was open as it was.
 
 from __future__ import annotations
 
+import asyncio
+import inspect
 import io
 import os
 import shutil
@@ -155,6 +157,23 @@ def test_a_folder_outside_the_data_folder_is_never_listed(panel, folders, folder
     unchanged(panel, folders)
 
 
+@pytest.mark.parametrize("handler, args, words", [
+    ("hs_set_angle", ("nan",), "from 0 to 180"), ("hs_set_angle", ("1e999",), "from 0 to 180"),
+    ("hs_set_angle", ([1],), "from 0 to 180"), ("hs_set_angle", ("-5",), "from 0 to 180"),
+    ("hs_set_unit", (["m"],), "unknown length unit"), ("hs_set_unit", ("furlong",), "unknown length unit"),
+    ("hs_view_click", ({"worldPosition": ["a"]},), ""), ("hs_view_click", ({"position": {"x": "a"}},), ""),
+    ("hs_view_click", (7,), ""), ("hs_step", ("x",), ""), ("hs_step", (10**9,), ""), ("hs_remove_probe", (None,), ""),
+])
+def test_a_malformed_handler_call_is_refused_and_changes_nothing(panel, folders, handler, args, words):
+    clear(panel)
+    before = panel.state.hs_unit, panel.state.hs_feature_angle, panel.state.hs_frame, list(panel.state.hs_probes)
+    getattr(panel.ctrl, handler)(*args)
+    assert words in message(panel)
+    assert (panel.state.hs_unit, panel.state.hs_feature_angle, panel.state.hs_frame, panel.state.hs_probes) == \
+        (*before[:3], before[3])
+    unchanged(panel, folders)
+
+
 def upload(heat, value) -> None:
     heat.state.hs_upload = value
     heat.state.flush()
@@ -205,6 +224,32 @@ def test_a_mesh_swapped_for_a_link_out_of_the_folder_after_opening_is_not_zipped
         shutil.move(moved, data_dir / "platen.msh")
 
 
+def answer(result):
+    """What a wslink method returned, awaited when it is a coroutine (as wslink does)."""
+    return asyncio.run(result) if inspect.isawaitable(result) else result
+
+
+@pytest.mark.parametrize("error", [TypeError("takes 0 positional arguments but 1 was given"),
+                                   ValueError("invalid literal for int() with base 10: 'x'"), KeyError("y")])
+def test_a_malformed_button_request_is_one_log_line_and_no_answer(error, caplog):
+    from heatsoak.plugin.session.gate import Gate
+
+    handler = FakeHandler()
+
+    def broken(obj, *args):
+        raise error
+
+    handler.functionMap["trame.trigger"] = (handler, broken)
+    server = SimpleNamespace(state={}, add_protocol_to_configure=lambda fn: None)
+    Gate(server, lambda conn, m, a: True, on_close=lambda conn: None).connected(
+        SimpleNamespace(publish=handler.publish), "owner", "")
+    handler.web_app.last_active_client_id = "owner"
+    obj, func = handler.functionMap["trame.trigger"]
+    assert answer(func(obj, "hs_step", ["x"], {})) is None
+    lines = [r.getMessage() for r in caplog.records]
+    assert len(lines) == 1 and "'hs_step' not taken" in lines[0] and type(error).__name__ in lines[0]
+
+
 class FakeHandler:
     """Stands in for wslink's handler: its method table, the sending connection, what it publishes."""
 
@@ -237,6 +282,6 @@ def test_the_gate_lets_a_watching_tab_only_look_and_nobody_stop_the_server(metho
     obj, func = handler.functionMap[method]
     for conn, runs in (("owner", owner_runs), ("watcher", watcher_runs)):
         handler.web_app.last_active_client_id = conn
-        assert (func(obj, *args) == f"ran {method}") is runs, (conn, method)
+        assert (answer(func(obj, *args)) == f"ran {method}") is runs, (conn, method)
     if method == "trame.state.update":  # the watcher's field is given the workspace's value back
         assert handler.sent == [("trame.state.topic", {"hs_t_end": 600}, "watcher")]

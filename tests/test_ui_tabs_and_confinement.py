@@ -114,10 +114,14 @@ def test_cancel_from_the_watching_tab_does_not_stop_the_owners_run(tabs):
     fill(first, "#hs-step", 2)
     first.wait_for_selector("#hs-run:not([disabled])", timeout=15_000)
     first.click("#hs-run")
-    wait_for(lambda: "left" in first.inner_text("#hs-progress-text"), 30, what="the owner's run to be under way")
+    wait_for(lambda: "step " in first.inner_text("#hs-progress-text"), 60, what="the owner's run to be stepping")
     second.wait_for_selector("#hs-cancel")
     force(second, "() => document.querySelector('#hs-cancel').click()")
-    step = lambda: int(first.inner_text("#hs-progress-text").split("step ")[1].split(" ")[0])  # noqa: E731
+    def step():
+        text = first.inner_text("#hs-progress-text")
+        assert "step " in text, text  # still running, not stopping
+        return int(text.split("step ")[1].split(" ")[0])
+
     before = step()
     wait_for(lambda: step() > before + 2, 20, what="the run to go on after the watcher's cancel")
     assert "stopping" not in first.inner_text("#hs-progress-text")

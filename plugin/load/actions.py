@@ -81,10 +81,13 @@ def register_choices(panel) -> None:
     def set_angle(angle):
         """A new feature angle splits untagged surfaces again."""
         try:
-            state.hs_feature_angle = float(angle)
+            value = float(angle)
         except (TypeError, ValueError):
-            state.hs_mesh_error = f"feature angle {angle!r} is not a number of degrees"
+            value = float("nan")
+        if not 0.0 <= value <= 180.0:  # NaN fails too
+            state.hs_mesh_error = f"feature angle {str(angle)[:20]!r}: give a number of degrees from 0 to 180"
             return
+        state.hs_feature_angle = value
         reload_mesh(panel)
 
     @state.change("hs_upload")

@@ -82,7 +82,8 @@ def register_player(panel) -> None:
     def step(delta):
         """One frame forward (+1) or back (-1)."""
         state.hs_playing = False
-        state.hs_frame = int(min(max(state.hs_frame + int(delta), 0), max(state.hs_n_frames - 1, 0)))
+        if delta in (1, -1):  # nothing else is a step
+            state.hs_frame = int(min(max(state.hs_frame + delta, 0), max(state.hs_n_frames - 1, 0)))
 
 
 def default_ticks(panel, run) -> list:

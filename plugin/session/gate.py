@@ -13,6 +13,7 @@ that changes the workspace (tests in tests/test_ui_tabs.py fail loudly).
 
 from __future__ import annotations
 
+import inspect
 import logging
 
 from trame_server.utils import clean_state
@@ -80,6 +81,8 @@ class Gate:
         def guarded(obj, *args, **kwargs):
             conn = self.sender()
             if uri not in NEVER and self.may_change(conn, uri, args):
+                if uri == "trame.trigger":
+                    return _quiet(lambda: func(obj, *args, **kwargs), args[0] if args else "")
                 return func(obj, *args, **kwargs)
             log.info("heatsoak: %s from a watching tab refused", uri)
             if uri == "trame.state.update" and args:
@@ -95,3 +98,14 @@ class Gate:
         values = {k: state[k] for k in keys if isinstance(k, str) and k in state}
         if values and conn is not None:
             self.handler.publish("trame.state.topic", clean_state(values)[0], client_id=conn)
+
+
+async def _quiet(call, name):
+    """What ``call()`` (a button handler) returns; a request it cannot take (arguments of the wrong kind
+    or number, sent by a tampered page) is logged as one line instead of a traceback, answered with nothing."""
+    try:
+        result = call()
+        return await result if inspect.isawaitable(result) else result
+    except (TypeError, ValueError, KeyError, IndexError, AttributeError) as exc:
+        log.warning("heatsoak: request %.60r not taken (%s: %.200s)", name, type(exc).__name__, exc)
+        return None

@@ -142,13 +142,16 @@ def register_probes(panel) -> None:
         """A click in 3D: select the group under the mouse, or place a probe there."""
         if panel.mesh is None or not event:
             return
-        if "worldPosition" in event:  # client-side (vtk.js) views pick in the browser
-            point = np.asarray(event["worldPosition"][:3], dtype=float)
-            hit = point, panel.scene.nearest_group(point)
-        elif "position" in event:
-            hit = panel.scene.pick(event["position"]["x"], event["position"]["y"])
-        else:
-            hit = None
+        try:  # a click event as a browser sends it; anything else is ignored
+            if "worldPosition" in event:  # client-side (vtk.js) views pick in the browser
+                point = np.asarray(event["worldPosition"][:3], dtype=float).reshape(3)
+                hit = point, panel.scene.nearest_group(point)
+            elif "position" in event:
+                hit = panel.scene.pick(float(event["position"]["x"]), float(event["position"]["y"]))
+            else:
+                hit = None
+        except (TypeError, ValueError, KeyError, IndexError):
+            return
         if hit is None:
             return
         point, group = hit
