@@ -13,7 +13,7 @@ from heatsoak.core.problem.problem import Problem, TimeSettings
 from heatsoak.core.solve.reduced.fingerprint import stale_reasons
 from heatsoak.core.solve.reduced.inputs import initial_coefficients, schedules, values
 from heatsoak.core.solve.reduced.integrate import exact_steps, theta_steps
-from heatsoak.core.solve.reduced.model import ReducedModel, time_grid
+from heatsoak.core.solve.reduced.model import ModalSystem, ReducedModel, time_grid
 
 __all__ = ["Answer", "Outputs", "answer", "half_step_coordinates", "output_rows", "reconstruct"]
 
@@ -105,8 +105,11 @@ def answer(model: ReducedModel, problem: Problem, time: TimeSettings, outputs: O
     loads, groups = schedules(problem, model.load_names, model.group_names)
     times, thetas = time_grid(problem, time)
     c0 = initial_coefficients(problem)
-    z = _integrate(model.system, loads, groups, times, thetas, model.system.G0 @ c0, exact_time)
-    zc = _integrate(model.coarse, loads, groups, times, thetas, model.coarse.G0 @ c0, exact_time)
+    # the model and its coarse part marched together: one pass over the steps for both
+    both = ModalSystem(*(np.concatenate([getattr(model.system, k), getattr(model.coarse, k)])
+                         for k in ("lam", "Fr", "Kp", "Mp", "G0")))
+    Z = _integrate(both, loads, groups, times, thetas, both.G0 @ c0, exact_time)
+    z, zc = Z[:model.size], Z[model.size:]
     g = values(groups, times)
     y = outputs.Cz @ z + outputs.Cg @ g
     yc = outputs.Cz_coarse @ zc + outputs.Cg @ g
