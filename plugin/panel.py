@@ -29,6 +29,8 @@ from heatsoak.plugin.session import actions as session_actions
 from heatsoak.plugin.session import layout as session_layout
 from heatsoak.plugin.setup import actions as setup_actions
 from heatsoak.plugin.setup import layout as setup_layout
+from heatsoak.plugin.sweep import actions as sweep_actions
+from heatsoak.plugin.sweep import layout as sweep_layout
 from heatsoak.plugin.startup import WorkFolder
 from heatsoak.plugin.whatif import actions as whatif_actions
 from trame.widgets import html
@@ -79,7 +81,7 @@ class HeatPanel:
         self.state.hs_disclaimer = DISCLAIMER
         server.enable_module({"serve": {"__heatsoak": str(Path(__file__).parent)}, "styles": ["__heatsoak/style.css"]})
         for module in (jobs_actions, session_actions, load_actions, setup_actions, run_actions, results_actions,
-                       results_time_error, export_actions, guard, whatif_actions):
+                       results_time_error, export_actions, guard, whatif_actions, sweep_actions):
             module.register(self)
 
     def open_path(self, path) -> bool:
@@ -134,6 +136,7 @@ class HeatPanel:
     def runs_ui(self):
         """Runs kept, comparison and export (for a side drawer)."""
         with session_layout.locked():
+            sweep_layout.build(self)
             runs_layout.build(self)
 
 
