@@ -60,7 +60,7 @@ def running_cluster(tmp_path):
     distributed = pytest.importorskip("distributed")
     address = f"tcp://127.0.0.1:{_free_port()}"
     port = address.rsplit(":", 1)[1]
-    procs = [_start(_dask("scheduler", "--host", "127.0.0.1", "--port", port, "--dashboard-address", ":0"),
+    procs = [_start(_dask("scheduler", "--host", "127.0.0.1", "--port", port, "--dashboard-address", "127.0.0.1:0"),
                     tmp_path / "scheduler.log")]
     try:
         procs.append(_start(_dask("worker", address, "--nworkers", "2", "--nthreads", "1", "--host", "127.0.0.1"),
