@@ -24,6 +24,8 @@ says so; farther points are outside.
 
 from __future__ import annotations
 
+import weakref
+
 import numpy as np
 from heatsoak.core.errors import ProbeError
 from heatsoak.core.mesh.geometry import p1_gradients
@@ -81,6 +83,22 @@ def isoparametric_xi(nodes: np.ndarray, pts: np.ndarray, xi: np.ndarray, iterati
     return np.where(settled, xi, start)
 
 
+#: Search tree of each mesh's cell centroids, kept while the mesh lives: the UI checks probes on
+#: every edit, and building the tree of a 1.1M-cell mesh takes seconds.
+_TREES: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
+
+
+def _cell_tree(mesh: Mesh):
+    """KD-tree of the cell centroids and the largest centroid-to-vertex distance [m] of ``mesh``."""
+    found = _TREES.get(mesh)
+    if found is None:
+        vertices = mesh.points[mesh.cells[:, :4]]
+        centroids = vertices.mean(axis=1)
+        radius = float(np.sqrt(((vertices - centroids[:, None]) ** 2).sum(axis=2).max()))
+        found = _TREES[mesh] = (cKDTree(centroids), radius)
+    return found
+
+
 def locate(mesh: Mesh, points, tol: float = TOL):
     """Find the cell containing each point.
 
@@ -106,8 +124,7 @@ def locate(mesh: Mesh, points, tol: float = TOL):
     cells, lam = np.full(k, -1, dtype=np.int64), np.zeros((k, 4))
     if k == 0:
         return cells, lam
-    centroids = mesh.points[mesh.cells[:, :4]].mean(axis=1)
-    tree = cKDTree(centroids)
+    tree, radius = _cell_tree(mesh)
     nc = min(8, mesh.n_cells)
     cand = tree.query(pts, nc)[1].reshape(k, nc)
     cl = _barycentric(mesh, cand.ravel(), np.repeat(pts, nc, axis=0)).reshape(k, nc, 4)
@@ -117,7 +134,6 @@ def locate(mesh: Mesh, points, tol: float = TOL):
     cells[hit], lam[hit] = cand[rows, best][hit], cl[rows, best][hit]
     if hit.all():
         return cells, lam
-    radius = np.linalg.norm(mesh.points[mesh.cells[:, :4]] - centroids[:, None], axis=2).max()
     for i in np.flatnonzero(~hit):  # the few points the nearest candidates missed
         near = np.asarray(tree.query_ball_point(pts[i], radius * (1 + 1e-9)), dtype=np.int64)
         if near.size == 0:

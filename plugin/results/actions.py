@@ -7,6 +7,7 @@ scalars of the surface built when the run was shown.
 from __future__ import annotations
 
 import asyncio
+import time
 
 import numpy as np
 from heatsoak.plugin.results import curves
@@ -208,10 +209,18 @@ def apply_range(panel) -> None:
 
 
 async def play_loop(panel) -> None:
-    """Advance frames while playing, at the chosen speed (frames per second)."""
+    """Advance frames while playing: at the chosen speed (frames per second), or as fast as the
+    view draws when a frame takes longer than its share of a second.
+
+    Each frame is due one period after the last; the wait is what is left of the period after
+    drawing (not a whole period on top of it), and a late frame is drawn at once without
+    queueing the missed ones, so requests never pile up behind a slow view.
+    """
     state = panel.state
+    due = time.perf_counter()
     while state.hs_playing:
-        await asyncio.sleep(1.0 / max(float(state.hs_speed or 5), 0.5))
+        due = max(due + 1.0 / max(float(state.hs_speed or 5), 0.5), time.perf_counter())
+        await asyncio.sleep(due - time.perf_counter())
         with state:
             if not state.hs_playing:
                 break

@@ -33,6 +33,7 @@ from heatsoak.plugin.setup.forms import (
 )
 from heatsoak.plugin.setup.materials import material_form
 from heatsoak.plugin.setup.probe_notes import placeable, probe_notes
+from heatsoak.plugin.soon import soon
 
 BC_FIELDS = ("kind", "shape", "value", "start", "end", "at", "over", "table", "h")
 TIME_KEYS = ("hs_t_end", "hs_t_step", "hs_t_theta", "hs_t_mass", "hs_initial", "hs_every")
@@ -75,7 +76,7 @@ def register_conditions(panel) -> None:
         state.hs_editor_group = hs_group if form is not None else None
         panel.scene.highlight_group(panel.mesh.group_names.index(hs_group) if form is not None else None)
         panel.update_view()
-        refresh_preview(panel)
+        soon(panel, refresh_preview)  # the click shows first, the plot follows
 
     @state.change(*(f"hs_e_{k}" for k in BC_FIELDS))
     def on_bc_edit(**_):
@@ -85,7 +86,7 @@ def register_conditions(panel) -> None:
             panel.bcs[group] = {k: state[f"hs_e_{k}"] for k in BC_FIELDS}
         state.hs_bc_unit = KIND_UNITS.get(state.hs_e_kind, "")
         validate(panel)
-        refresh_preview(panel)
+        soon(panel, refresh_preview)  # the click shows first, the plot follows
 
     @state.change("hs_table_upload")
     def on_table_upload(hs_table_upload, **_):
@@ -109,7 +110,7 @@ def register_time(panel) -> None:
     def on_time_edit(**_):
         state.hs_theta_hint = theta_hint(state.hs_t_theta)
         validate(panel)
-        refresh_preview(panel)
+        soon(panel, refresh_preview)  # the click shows first, the plot follows
 
 
 def register_probes(panel) -> None:
