@@ -9,6 +9,9 @@ from __future__ import annotations
 
 import asyncio
 
+#: Seconds the work waits, so the answer to the event is written to the browser first.
+AFTER_S = 0.05
+
 
 def soon(panel, fn) -> None:
     """Call ``fn(panel)`` inside a state update after the current handler returns.
@@ -30,4 +33,4 @@ def soon(panel, fn) -> None:
         with panel.state:
             fn(panel)
 
-    loop.call_soon(run)
+    loop.call_later(AFTER_S, run)

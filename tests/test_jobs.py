@@ -29,6 +29,10 @@ def counting(report, n: int, pause: float) -> int:
     return done
 
 
+def niceness(report) -> int:
+    return os.nice(0)
+
+
 def failing(report, kind: str):
     report.phase("reading")
     if kind == "input":
@@ -78,6 +82,11 @@ def test_a_run_reports_its_phases_in_order_and_its_steps(jobs, lblock, tmp_path)
 def test_the_worker_is_another_process(jobs):
     job = finish(jobs.submit("pid", counting, 1, 0.0))
     assert job.status == "complete" and job.worker.process.pid != os.getpid()
+
+
+def test_the_worker_yields_the_cpu_to_the_ui(jobs):
+    job = finish(jobs.submit("nice", niceness))
+    assert job.result == min(os.nice(0) + 10, 19)
 
 
 def test_progress_and_estimate_are_shown_while_it_runs(jobs):

@@ -87,7 +87,7 @@ def status_text(job) -> str:
     if eta is not None:
         parts.append(f"about {seconds(eta)} left" if eta >= 1 else "under 1 s left")
     elif job.phase != "writing":
-        parts.append("time left known after the first steps")
+        parts.append(f"time left known after the first {ITEMS.get(job.phase, 'step')}s")
     return " · ".join(parts)
 
 

@@ -14,6 +14,7 @@ the UI reads them with :meth:`Job.poll` and never blocks on the worker.
 from __future__ import annotations
 
 import importlib
+import os
 import multiprocessing as mp
 import queue
 import time
@@ -25,6 +26,8 @@ _CTX = mp.get_context("spawn")
 
 #: Seconds between two progress messages of one job (the UI redraws about 4 times a second).
 REPORT_EVERY_S = 0.1
+#: How much lower the CPU priority of a worker is than the UI's process (POSIX nice increment).
+WORKER_NICENESS = 10
 #: Seconds a job may take to stop after cancel before its process is ended.
 CANCEL_GRACE_S = 20.0
 
@@ -72,6 +75,8 @@ def describe_error(exc: BaseException) -> str:
 
 def _serve(inbox, outbox, cancel, warm) -> None:
     """Body of a worker process: import ``warm``, wait for one job, run it, send its result."""
+    if hasattr(os, "nice"):
+        os.nice(WORKER_NICENESS)  # the UI's process is served first when both want the CPU
     for name in warm:
         try:
             importlib.import_module(name)

@@ -13,6 +13,7 @@ import numpy as np
 from heatsoak.plugin.results import curves
 from heatsoak.plugin.runs.here import is_here
 from heatsoak.plugin.scene import DIFFERENCE_CMAP, DIFFERENCE_LABEL, TEMPERATURE_CMAP, UNIT_LABEL
+from heatsoak.plugin.soon import soon
 
 SPEEDS = (1, 2, 5, 10, 20)
 AXES = {"x": (1.0, 0.0, 0.0), "y": (0.0, 1.0, 0.0), "z": (0.0, 0.0, 1.0)}
@@ -196,7 +197,8 @@ def draw_frame(panel, k: int) -> None:
     state.hs_frame_time = label
     panel.scene.set_time_text(f"Run {run.id}" + (f" minus run {diff.id}" if diff else "") + f"   t = {t:g} s")
     apply_range(panel)
-    panel.update_view()
+    soon(panel, type(panel).update_view)  # the frame's time answers first; the picture follows, and
+    # frames that come faster than the view draws update the values it draws next (never queued)
 
 
 def apply_range(panel) -> None:

@@ -75,8 +75,8 @@ def register_conditions(panel) -> None:
             state.update({f"hs_e_{k}": form[k] for k in BC_FIELDS})
         state.hs_editor_group = hs_group if form is not None else None
         panel.scene.highlight_group(panel.mesh.group_names.index(hs_group) if form is not None else None)
-        panel.update_view()
-        soon(panel, refresh_preview)  # the click shows first, the plot follows
+        soon(panel, type(panel).update_view)  # the editor answers the click first; the 3D picture and
+        soon(panel, refresh_preview)          # the schedule plot follow as soon as they are drawn
 
     @state.change(*(f"hs_e_{k}" for k in BC_FIELDS))
     def on_bc_edit(**_):
@@ -110,7 +110,7 @@ def register_time(panel) -> None:
     def on_time_edit(**_):
         state.hs_theta_hint = theta_hint(state.hs_t_theta)
         validate(panel)
-        soon(panel, refresh_preview)  # the click shows first, the plot follows
+        soon(panel, refresh_preview)
 
 
 def register_probes(panel) -> None:
