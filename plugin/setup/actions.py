@@ -33,7 +33,7 @@ from heatsoak.plugin.setup.forms import (
 )
 from heatsoak.plugin.setup.materials import material_form
 from heatsoak.plugin.setup.probe_notes import placeable, probe_notes
-from heatsoak.plugin.soon import soon
+from heatsoak.plugin.jobs.soon import soon
 
 BC_FIELDS = ("kind", "shape", "value", "start", "end", "at", "over", "table", "h")
 TIME_KEYS = ("hs_t_end", "hs_t_step", "hs_t_theta", "hs_t_mass", "hs_initial", "hs_every")
