@@ -3,7 +3,6 @@ animation keeps the frames it made. Headless chromium on ``heatsoak ui`` with th
 
 from __future__ import annotations
 
-import os
 import time
 from pathlib import Path
 
@@ -24,13 +23,6 @@ def data_dir(tmp_path_factory) -> Path:
     return copy_demo_files(tmp_path_factory.mktemp("ui-jobs-data"), names)
 
 
-@pytest.fixture(scope="module")
-def shots(tmp_path_factory) -> Path:
-    folder = Path(os.environ.get("HEATSOAK_UI_SHOTS") or tmp_path_factory.mktemp("ui-jobs-shots"))
-    folder.mkdir(parents=True, exist_ok=True)
-    return folder
-
-
 def state(page, key: str):
     """The value of ``key`` in the page's copy of the server state."""
     return page.evaluate(f"trame.state.get('{key}')")
@@ -42,6 +34,17 @@ def timed(action, done, what: str) -> float:
     action()
     wait_for(done, 15, interval=0.02, what=what)
     return time.monotonic() - start
+
+
+def timed_change(page, key: str, action) -> float:
+    """Seconds from ``action()`` until the page's ``key`` changes."""
+    before = state(page, key)
+    return timed(action, lambda: state(page, key) != before, f"{key} to change")
+
+
+def median_of(n: int, measure) -> float:
+    """Median of ``measure(i)`` for i = 0 .. n-1 (one slow moment of a shared machine is not the UI)."""
+    return sorted(measure(i) for i in range(n))[n // 2]
 
 
 def test_first_run_of_the_demo(page):
@@ -63,17 +66,18 @@ def test_run_group_and_slider_answer_while_a_run_and_an_animation_work(page, sho
     answers = {"run": timed(lambda: page.click("#hs-run"), lambda: state(page, "hs_running") is True,
                             "the run to start")}
     wait_for(lambda: page.inner_text("#hs-progress-text").startswith("stepping"), 30, what="the run to step")
-    before = state(page, "hs_frame_time")
     page.locator("#hs-player .v-slider-thumb").first.focus()
-    answers["slider"] = timed(lambda: page.keyboard.press("ArrowRight"),
-                              lambda: state(page, "hs_frame_time") != before, "the frame to change")
+    answers["slider"] = median_of(3, lambda i: timed_change(page, "hs_frame_time", lambda: page.keyboard.press(
+        "ArrowRight" if i % 2 == 0 else "ArrowLeft")))
     page.click("#hs-view-mode button:has-text('set-up')")
     settle(page, 1500)  # the set-up picture drawn: the click is timed alone
     # a click on a group in the legend (the 3D view's own mouse handling renders on the server
     # before any handler runs; picking in 3D is timed without a browser in the benchmark)
-    answers["group"] = timed(lambda: page.locator(".hs-group", has_text="bore").first.click(),
-                             lambda: state(page, "hs_editor_group") == "bore", "the clicked group chosen")
-    page.wait_for_selector("#hs-editor >> text=Condition on bore", timeout=10_000)
+    groups = ["bore", "rim", "top"]
+    answers["group"] = median_of(3, lambda i: timed(
+        lambda: page.locator(".hs-group", has_text=groups[i]).first.click(),
+        lambda: state(page, "hs_editor_group") == groups[i], f"group {groups[i]} chosen"))
+    page.wait_for_selector("#hs-editor >> text=Condition on top", timeout=10_000)
     page.screenshot(path=str(shots / "jobs-1-both-working.png"))
     # both jobs were still at work for every answer, or the answers prove nothing
     assert page.locator("#hs-cancel").is_visible() and page.locator("#hs-export-job").is_visible()

@@ -14,8 +14,8 @@ the UI reads them with :meth:`Job.poll` and never blocks on the worker.
 from __future__ import annotations
 
 import importlib
-import os
 import multiprocessing as mp
+import os
 import queue
 import time
 import traceback
