@@ -3,6 +3,7 @@ animation keeps the frames it made. Headless chromium on ``heatsoak ui`` with th
 
 from __future__ import annotations
 
+import os
 import time
 from pathlib import Path
 
@@ -14,7 +15,8 @@ playwright_api = require_browser()
 
 #: Most seconds between a press and the server's answer reaching the page while both jobs work (the
 #: issue's bound). The browser's own redraw comes on top: 0.2-0.7 s on the shared test machine.
-RESPONSE_S = 1.0
+#: HEATSOAK_UI_ANSWER_S sets another bound on a machine loaded far beyond its cores.
+RESPONSE_S = float(os.environ.get("HEATSOAK_UI_ANSWER_S", "1.0"))
 
 
 @pytest.fixture(scope="module")

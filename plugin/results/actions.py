@@ -10,10 +10,10 @@ import asyncio
 import time
 
 import numpy as np
+from heatsoak.plugin.jobs.soon import soon
 from heatsoak.plugin.results import curves
 from heatsoak.plugin.runs.here import is_here
 from heatsoak.plugin.scene import DIFFERENCE_CMAP, DIFFERENCE_LABEL, TEMPERATURE_CMAP, UNIT_LABEL
-from heatsoak.plugin.jobs.soon import soon
 
 SPEEDS = (1, 2, 5, 10, 20)
 AXES = {"x": (1.0, 0.0, 0.0), "y": (0.0, 1.0, 0.0), "z": (0.0, 0.0, 1.0)}

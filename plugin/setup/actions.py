@@ -17,6 +17,7 @@ from heatsoak.core.problem.materials import SOURCE_NOTE
 from heatsoak.core.problem.schedule import parse_schedule
 from heatsoak.core.solve.stepping.adaptive import ADAPTIVE_STEPS
 from heatsoak.core.solve.stepping.theta import THETA_PRESETS
+from heatsoak.plugin.jobs.soon import soon
 from heatsoak.plugin.load import listing
 from heatsoak.plugin.results import plots
 from heatsoak.plugin.scene import group_colour
@@ -33,7 +34,6 @@ from heatsoak.plugin.setup.forms import (
 )
 from heatsoak.plugin.setup.materials import material_form
 from heatsoak.plugin.setup.probe_notes import placeable, probe_notes
-from heatsoak.plugin.jobs.soon import soon
 
 BC_FIELDS = ("kind", "shape", "value", "start", "end", "at", "over", "table", "h")
 TIME_KEYS = ("hs_t_end", "hs_t_step", "hs_t_theta", "hs_t_mass", "hs_initial", "hs_every")
