@@ -73,11 +73,24 @@ def _error(times, hist, ref) -> float:
     return float(max(np.abs(hist[:, j] - np.interp(times, rt, rh[:, j])).max() for j in range(hist.shape[1])))
 
 
+def _aligned(n: int, end: float, marks) -> int:
+    """The smallest N' in [n, 2n] whose step end / N' divides every mark (else n): steps cut short at
+    corners make a fixed step less accurate, and a user would pick a step that lands on them."""
+    marks = np.asarray([m for m in marks if 0 < m < end], dtype=float)
+    for k in range(n, 2 * n + 1):
+        q = marks * k / end
+        if np.all(np.abs(q - np.round(q)) < 1e-9):
+            return k
+    return n
+
+
 def _fixed_same_error(problem, base, probes, ref, target: float, steps: int) -> dict:
-    """The fixed-step run of fewest steps end / N, N from ``steps`` up, whose largest probe error is at
-    most ``target`` (the error is not monotonic in N: steps are cut short at schedule corners)."""
+    """The fixed-step run of fewest steps end / N, N from ``steps`` up (each landing on the corners when
+    some N up to twice as many does), whose largest probe error is at most ``target``."""
     n, order = steps, step_order(base.theta)
+    marks = ThetaMethod(problem, base).ops.breakpoints()
     for _ in range(40):
+        n = _aligned(n, base.end, marks)
         times, hist, wall, st = _march(problem, dataclasses.replace(base, step=base.end / n, error_estimate=True),
                                        probes)
         err = _error(times, hist, ref)
