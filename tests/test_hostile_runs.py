@@ -224,3 +224,36 @@ def test_ctrl_c_at_any_moment_leaves_agreeing_files_and_exit_130(tmp_path):
         if (out / "summary.json").exists():
             outs.append(_files_agree(out)["status"])
     assert set(outs) == {"cancelled"}
+
+
+# --------------------------------------------------------------------------- memory
+
+def test_check_states_the_memory_a_run_needs_and_may_use(tmp_path, capsys):
+    assert main(["check", str(_long_case(tmp_path))]) == 0
+    line = next(x for x in capsys.readouterr().out.splitlines() if x.startswith("memory"))
+    assert "MiB estimated" in line and "a run may use at most" in line and "--max-memory" in line
+
+
+def test_a_case_estimated_above_the_memory_bound_is_refused_before_it_runs(tmp_path, capsys):
+    assert main(["run", str(_long_case(tmp_path)), "--quiet", "--max-memory", "0.01",
+                 "--out", str(tmp_path / "out")]) == 2
+    assert "the case needs more" in capsys.readouterr().err
+    assert not (tmp_path / "out").exists()
+
+
+def test_a_run_that_runs_out_of_memory_fails_cleanly_with_its_steps_kept(tmp_path, monkeypatch, capsys):
+    from heatsoak.core.results import record
+
+    real, calls = record.Recorder.record, {"n": 0}
+
+    def grows(self, t, T):
+        calls["n"] += 1
+        if calls["n"] == 7:
+            raise MemoryError
+        return real(self, t, T)
+
+    monkeypatch.setattr(record.Recorder, "record", grows)
+    assert main(["run", str(_long_case(tmp_path, every=4)), "--quiet", "--out", str(tmp_path / "out")]) == 1
+    assert "out of memory" in capsys.readouterr().err
+    summary = _files_agree(tmp_path / "out")
+    assert summary["status"] == "failed" and "out of memory" in summary["error"] and summary["steps"] == 5

@@ -57,6 +57,9 @@ def _run_args(p):
     p.add_argument("--out", help="results folder (default: CASE-results next to each case file; "
                    "with several cases, one subfolder per case)")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
+    p.add_argument("--max-memory", type=float, metavar="GB",
+                   help="memory one run may use (default: half the machine's); a case estimated above it is "
+                        "refused, a run that grows past it stops")
 
 
 def _sweep_args(p):
@@ -140,6 +143,10 @@ def main(argv=None) -> int:
         return 2
     except HeatsoakError as exc:
         print(f"heatsoak {args.command}: {exc}", file=sys.stderr)
+        return 1
+    except MemoryError:
+        print(f"heatsoak {args.command}: out of memory: the job needed more than this process may use "
+              "(see heatsoak check for its estimate; heatsoak run --max-memory)", file=sys.stderr)
         return 1
     except BrokenPipeError:  # output piped into a pager or head that closed early
         sys.stderr.close()

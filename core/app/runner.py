@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import dataclasses
+import functools
 import signal
 import sys
 import threading
@@ -11,10 +12,11 @@ from contextlib import contextmanager
 from pathlib import Path
 
 import numpy as np
+from heatsoak.core.app import memory
 from heatsoak.core.case.casefile import Case, check_case, load_case, stability_problem
 from heatsoak.core.case.paths import describe_limits
 from heatsoak.core.case.plausible import drivers, problem_parts, result_problem
-from heatsoak.core.errors import CaseError, HeatsoakError, ImplausibleError, ResultsError
+from heatsoak.core.errors import CaseError, HeatsoakError, ImplausibleError, InputError, ResultsError
 from heatsoak.core.results.probes import ProbeSet
 from heatsoak.core.results.record import Recorder, bound_warnings
 from heatsoak.core.results.time_error import TimeErrorRecord, margin_warnings
@@ -189,6 +191,8 @@ def run_case(case: Case, out_dir, progress=None, should_stop=None, assembler=Non
         status = "cancelled"
     except Exception as exc:
         error = str(exc) if isinstance(exc, HeatsoakError) else f"{type(exc).__name__}: {exc}"
+        if isinstance(exc, MemoryError):
+            error = "out of memory: the run needed more than this process may use (heatsoak run --max-memory)"
         raise
     finally:
         phase("writing")
@@ -297,6 +301,8 @@ def cmd_check(args) -> int:
         print(f"warning   {w}")
     for w in [*case.mesh.warnings, *_probe_set(case).notes]:
         print(f"note      {w}")
+    steps = len(planned_step_times(case.problem, case.time))
+    print(f"memory    {memory.describe(memory.estimate_bytes(case, steps, case.time.solver), memory.default_limit_bytes())}")
     print(f"limits    {describe_limits()}")
     return 0
 
@@ -335,11 +341,24 @@ def _report(summary: dict, out_dir: Path) -> list:
     return lines
 
 
-def _run_one(path, out, quiet: bool) -> dict:
+def _memory_limit(args) -> int:
+    given = getattr(args, "max_memory", None)
+    if given is not None and not given > 0:
+        raise InputError(f"--max-memory {given!r}: expected a number of GB > 0")
+    return memory.default_limit_bytes() if given is None else int(given * 2**30)
+
+
+def _run_one(path, out, quiet: bool, limit: int | None = None) -> dict:
     case = load_case(path)
+    if limit is not None:
+        need = memory.estimate_bytes(case, len(planned_step_times(case.problem, case.time)), case.time.solver)
+        if need["total"] > limit:
+            raise InputError(f"{path}: {memory.describe(need, limit)}: the case needs more; use a coarser mesh, "
+                             "a larger step or fewer probes, or raise --max-memory")
     bar = None if quiet else TerminalProgress()
     try:
-        summary = run_case(case, out, progress=bar)
+        with memory.bounded(memory.default_limit_bytes() if limit is None else limit):
+            summary = run_case(case, out, progress=bar)
     finally:
         if bar is not None:
             bar.done()
@@ -364,6 +383,7 @@ def cmd_run(args) -> int:
         problems = [i.message for p in paths for i in check_case(p)]
         if problems:
             raise CaseError(problems)
-        return run_batch(paths, args.out, args.quiet, _run_one)
+        return run_batch(paths, args.out, args.quiet, functools.partial(_run_one, limit=_memory_limit(args)))
     out = paths[0].parent / f"{paths[0].stem}-results" if args.out is None else Path(args.out)
-    return 0 if _run_one(paths[0], out, args.quiet)["status"] == "complete" else EXIT_CANCELLED
+    summary = _run_one(paths[0], out, args.quiet, _memory_limit(args))
+    return 0 if summary["status"] == "complete" else EXIT_CANCELLED

@@ -108,9 +108,11 @@ class Operators:
         return np.unique(np.concatenate(pts)) if pts else np.zeros(0)
 
     def jumps(self) -> np.ndarray:
-        """Sorted times t > 0 [s] where any schedule's value jumps (not just its slope)."""
-        scheds = [s for s, _, _ in self.loads] + list(self.fixed_schedules)
-        return np.unique(np.concatenate([jump_times(s) for s in scheds])) if scheds else np.zeros(0)
+        """Sorted times t > 0 [s] where any schedule's value jumps (not just its slope); found once."""
+        if "_jumps" not in self.__dict__:  # a table of a million rows takes a tenth of a second
+            scheds = [s for s, _, _ in self.loads] + list(self.fixed_schedules)
+            self._jumps = np.unique(np.concatenate([jump_times(s) for s in scheds])) if scheds else np.zeros(0)
+        return self._jumps.copy()
 
 
 def jump_times(schedule) -> np.ndarray:
