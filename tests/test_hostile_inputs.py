@@ -115,3 +115,52 @@ def test_an_energy_balance_far_off_is_a_loud_warning_naming_suspect_inputs(tmp_p
 def test_plausible_values_pass_untouched(tmp_path, capsys):
     assert main(["check", str(make_case(tmp_path))]) == 0
     assert "warning" not in capsys.readouterr().out
+
+
+# --------------------------------------------------------------------------- any case data, generated
+
+def _leaves(data, path=()):
+    if isinstance(data, dict):
+        for k, v in data.items():
+            yield from _leaves(v, (*path, k))
+    elif isinstance(data, list) and data and isinstance(data[0], dict):
+        for i, v in enumerate(data):
+            yield from _leaves(v, (*path, i))
+    else:
+        yield path
+
+
+def _set_leaf(data, path, value):
+    for p in path[:-1]:
+        data = data[p]
+    data[path[-1]] = value
+
+
+def test_any_value_anywhere_in_a_case_is_a_list_of_issues_never_an_exception(tmp_path):
+    import copy
+
+    from box_case import BASE
+    from heatsoak.core.case.casefile import check_case_data
+    from heatsoak.core.mesh.read import read_mesh
+    from hypothesis import HealthCheck, given, settings
+    from hypothesis import strategies as st
+
+    make_case(tmp_path)
+    mesh = read_mesh(tmp_path / "box.msh", "mm")
+    paths = list(_leaves(BASE))
+    values = st.recursive(
+        st.one_of(st.none(), st.booleans(), st.integers(), st.floats(), st.text(max_size=8),
+                  st.sampled_from(["/dev/zero", "../x.csv", "a\0b", "", "*", "box.msh"])),
+        lambda inner: st.one_of(st.lists(inner, max_size=4), st.dictionaries(st.text(max_size=6), inner, max_size=3)),
+        max_leaves=10)
+
+    @settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+    @given(st.lists(st.tuples(st.sampled_from(paths), values), min_size=1, max_size=3))
+    def check(changes):
+        data = copy.deepcopy(BASE)
+        for path, value in changes:
+            _set_leaf(data, path, value)
+        issues = check_case_data(data, tmp_path, mesh=mesh, source="case.toml", root=tmp_path)
+        assert all(i.message.startswith("case.toml: ") for i in issues)
+
+    check()

@@ -131,7 +131,7 @@ class _Checker:
 def _read_mesh_section(ck: _Checker, data: dict, mesh):
     sec = ck.table(data.get("mesh", {}), "mesh", MESH_KEYS, required=("file",))
     unit = sec.get("unit", "m")
-    if unit not in UNITS:
+    if not isinstance(unit, str) or unit not in UNITS:
         ck.bad("mesh.unit", unit, f"allowed units are {list(UNITS)}")
         unit = None
     angle = ck.number(sec, "mesh", "feature_angle", 30.0, lo=0, hi=180, open_lo=True)
@@ -379,7 +379,8 @@ def _read_probes(ck: _Checker, data: dict, mesh, unit: str) -> list:
             ck.bad(f"{key}.name", name, why)
         elif name in seen:
             ck.bad(f"{key}.name", name, "probe names must be unique")
-        seen.add(name)
+        if isinstance(name, str):
+            seen.add(name)
         at = t.get("at")
         if "at" in t and not (isinstance(at, list) and len(at) == 3 and all(_is_number(x) for x in at)):
             ck.bad(f"{key}.at", at, f"expected [x, y, z] in the mesh unit ({unit})")
