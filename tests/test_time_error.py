@@ -175,3 +175,18 @@ def test_the_bench_compares_adaptive_steps_with_the_fixed_step_of_the_same_accur
     assert rec["fixed_steps"] > rec["adaptive_steps"]
     assert [row[1] for row in time_error_rows([rec], str)] == [
         "adaptive BE, tolerance 0.5 K", "fixed BE step of the same error", "time-step error estimate, fixed BE"]
+
+
+def test_a_tolerance_alone_sets_the_largest_step_and_a_bad_one_is_named(demo_copy):
+    from heatsoak.core.case.casefile import check_case
+
+    text = demo_copy.read_text()
+    demo_copy.write_text(text.replace("\nstep = 20\n", "\ntolerance = 0.05\n"))
+    case = load_case(demo_copy)
+    assert case.time.tolerance == 0.05 and case.time.step == 3600 / 32
+    demo_copy.write_text(text.replace("\nstep = 20\n", "\ntolerance = -1\n"))
+    assert [i.message.split(": ", 1)[1] for i in check_case(demo_copy)] == [
+        "time.tolerance: -1 is not allowed; must be > 0"]
+    demo_copy.write_text(text.replace("\nstep = 20\n", "\n"))
+    messages = [i.message for i in check_case(demo_copy)]
+    assert any("time.step: missing; give a step [s], or a tolerance [K]" in m for m in messages)
