@@ -31,7 +31,16 @@ def run_in_worker(report, data: dict, case_dir, mesh, out_dir, root=None) -> dic
     report.phase("reading")
     case = case_from_data(data, case_dir, mesh=mesh, root=root)
 
+    first = {}
+
     def progress(p):
-        report.advance(p.step, p.total, f"t = {p.t:g} s of {p.end:g} s", eta_s=p.eta_s)
+        """The time left from the steps after the first (the first also warms caches up)."""
+        if p.step == 1:
+            first["elapsed"], eta = p.elapsed_s, None
+        elif p.total and "elapsed" in first:
+            eta = (p.elapsed_s - first["elapsed"]) / (p.step - 1) * (p.total - p.step)
+        else:
+            eta = p.eta_s
+        report.advance(p.step, p.total, f"t = {p.t:g} s of {p.end:g} s", eta_s=eta)
 
     return run_case(case, out_dir, progress=progress, should_stop=report.stopped, phase=report.phase)
