@@ -157,3 +157,31 @@ def test_done_callback_runs_once_in_this_process(jobs):
     ended = []
     finish(jobs.submit("count", counting, 2, 0.0, on_done=lambda j: ended.append((j.id, os.getpid()))))
     assert len(ended) == 1 and ended[0][1] == os.getpid()
+
+
+def test_a_waiting_worker_ends_when_the_ui_process_is_killed():
+    """A UI process killed without cleaning up (SIGKILL, crash) leaves no worker behind."""
+    import subprocess
+    import sys
+
+    code = (
+        "import os, sys\n"
+        "from heatsoak.plugin.jobs.pool import Worker\n"
+        "w = Worker()\n"
+        "print(w.process.pid, flush=True)\n"
+        "os._exit(0)\n"  # no atexit, no terminate of daemon children: as after a kill
+    )
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60)
+    pid = int(out.stdout.split()[0])
+    deadline = time.time() + 30
+    while time.time() < deadline and _alive(pid):
+        time.sleep(0.2)
+    assert not _alive(pid), f"worker {pid} outlived the process that started it"
+
+
+def _alive(pid: int) -> bool:
+    try:
+        with open(f"/proc/{pid}/stat") as f:
+            return f.read().split()[2] != "Z"
+    except FileNotFoundError:
+        return False

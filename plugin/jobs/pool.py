@@ -17,6 +17,7 @@ import importlib
 import multiprocessing as mp
 import os
 import queue
+import threading
 import time
 import traceback
 from dataclasses import dataclass, field
@@ -73,8 +74,22 @@ def describe_error(exc: BaseException) -> str:
     return f"{type(exc).__name__}: {exc}{where}"
 
 
-def _serve(inbox, outbox, cancel, warm) -> None:
+#: Seconds between two looks of a worker at whether the UI's process is still there.
+PARENT_CHECK_S = 1.0
+
+
+def _exit_with_parent(parent: int) -> None:
+    """End this worker as soon as the process that started it is gone (killed, crashed or stopped
+    without cleaning up): a waiting or working worker must never outlive the UI."""
+    while True:
+        time.sleep(PARENT_CHECK_S)
+        if os.getppid() != parent:
+            os._exit(1)
+
+
+def _serve(inbox, outbox, cancel, warm, parent) -> None:
     """Body of a worker process: import ``warm``, wait for one job, run it, send its result."""
+    threading.Thread(target=_exit_with_parent, args=(parent,), daemon=True, name="parent-watch").start()
     if hasattr(os, "nice"):
         os.nice(WORKER_NICENESS)  # the UI's process is served first when both want the CPU
     for name in warm:
@@ -99,7 +114,7 @@ class Worker:
 
     def __init__(self, warm=()):
         self.inbox, self.outbox, self.cancel = _CTX.Queue(), _CTX.Queue(), _CTX.Event()
-        self.process = _CTX.Process(target=_serve, args=(self.inbox, self.outbox, self.cancel, tuple(warm)),
+        self.process = _CTX.Process(target=_serve, args=(self.inbox, self.outbox, self.cancel, tuple(warm), os.getpid()),
                                     daemon=True, name="heatsoak-worker")
         self.process.start()
 
