@@ -29,9 +29,9 @@ from heatsoak.plugin.session import actions as session_actions
 from heatsoak.plugin.session import layout as session_layout
 from heatsoak.plugin.setup import actions as setup_actions
 from heatsoak.plugin.setup import layout as setup_layout
+from heatsoak.plugin.startup import WorkFolder
 from heatsoak.plugin.sweep import actions as sweep_actions
 from heatsoak.plugin.sweep import layout as sweep_layout
-from heatsoak.plugin.startup import WorkFolder
 from heatsoak.plugin.whatif import actions as whatif_actions
 from trame.widgets import html
 

@@ -32,7 +32,7 @@ def bomb_vtu(path, layout: str, header_type: str = "UInt32"):
             '<Piece NumberOfPoints="4" NumberOfCells="1">\n<Points>\n')
     encoded = base64.b64encode(header) + base64.b64encode(block)
     if layout == "binary":
-        body = f'<DataArray type="Float64" NumberOfComponents="3" format="binary">\n'.encode() + encoded + \
+        body = b'<DataArray type="Float64" NumberOfComponents="3" format="binary">\n' + encoded + \
             b"\n</DataArray>\n</Points>\n</Piece>\n</UnstructuredGrid>\n</VTKFile>\n"
     else:
         encoding = "raw" if layout == "raw" else "base64"

@@ -14,8 +14,7 @@ import zipfile
 from pathlib import Path
 
 import pytest
-from uidriver import (DEMO, copy_demo_files, fill, launch_browser, open_listed, open_section, require_browser,
-                      wait_for)
+from uidriver import DEMO, copy_demo_files, fill, launch_browser, open_listed, open_section, require_browser, wait_for
 
 pytestmark = pytest.mark.browser
 playwright_api = require_browser()

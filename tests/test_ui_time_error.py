@@ -10,9 +10,9 @@ import csv
 from pathlib import Path
 
 import pytest
+import tomllib
 from heatsoak.core.app.runner import run_case
 from heatsoak.core.case.casefile import load_case
-import tomllib
 from uidriver import DEMO, copy_demo_files, open_listed, open_section, require_browser, wait_for
 
 pytestmark = pytest.mark.browser

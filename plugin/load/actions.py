@@ -18,7 +18,6 @@ from heatsoak.plugin.setup import actions as setup_actions
 from heatsoak.plugin.setup import materials as material_actions
 from heatsoak.plugin.setup.forms import bc_form_from_case
 
-
 #: Subfolder of the work folder holding uploads (an uploaded case may name only files in it).
 UPLOADS = "uploads"
 

@@ -193,15 +193,15 @@ class Integrator:
 
         T is a new (n_nodes,) array every time [degC].
         """
-        T = self.initial_state()
+        T0 = self.initial_state()
         self.status = "running"
         start = _time.perf_counter()
-        yield self.t, T.copy()
+        yield self.t, T0.copy()
         expected = self._steps_expected()
         if self._cancel:
             self.status = "cancelled"
             return
-        for t_new, T in self._march(T):
+        for t_new, T in self._march(T0):
             self.t = t_new
             self.step_count += 1
             if self.progress is not None:
