@@ -97,3 +97,21 @@ def test_every_core_package_is_a_layer_and_the_top_level_stays_small():
         assert len(modules) <= 8, f"{pkg.name}/ holds {len(modules)} modules: {sorted(modules)}"
         too_long = [(str(p), n) for p in pkg.rglob("*.py") if (n := len(p.read_text().splitlines())) >= 450]
         assert too_long == []
+
+
+def test_every_package_folder_is_listed_for_installation():
+    """A subpackage missing from pyproject's list installs in editable mode but not from a wheel."""
+    from pathlib import Path
+
+    try:
+        import tomllib
+    except ModuleNotFoundError:  # Python 3.10
+        import tomli as tomllib
+
+    root = Path(__file__).resolve().parents[1]
+    listed = set(tomllib.loads((root / "pyproject.toml").read_text())["tool"]["setuptools"]["packages"])
+    found = set()
+    for folder, name in (("core", "heatsoak.core"), ("plugin", "heatsoak.plugin")):
+        for init in (root / folder).rglob("__init__.py"):
+            found.add(".".join([name, *init.parent.relative_to(root / folder).parts]))
+    assert found - listed == set() and listed - found == set()
