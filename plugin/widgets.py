@@ -36,6 +36,29 @@ def number(model: str, label: str, suffix: str = "", field: str | None = None, *
                          hide_details="auto", classes=classes, **extra, **kwargs)
 
 
+#: Least milliseconds between two values a dragged slider sends to the server (the value it is released
+#: at is always sent): a drag asks for a few answers a second, not one per pixel.
+SLIDE_MS = 250
+
+
+def slider(model: str, bounds: str, **kwargs):
+    """A slider for the number in state key ``model`` within ``bounds`` (a JS ``[min, max, step]``).
+
+    The thumb follows the mouse at once (the value shown lives in the browser-only ``hs_slide``);
+    ``model`` is sent at most every :data:`SLIDE_MS` while dragging, and on release or when the slider loses focus
+    (arrow keys).
+    """
+    shown = f"hs_slide['{model}']"
+    release = f"{model} = {shown} ?? {model}; hs_slide = {{}}"
+    move = (f"hs_slide = {{...hs_slide, '{model}': $event}}; "
+            f"if (Date.now() - hs_slide_t > {SLIDE_MS}) {{ hs_slide_t = Date.now(); {model} = $event }}")
+    return v3.VSlider(model_value=(f"{shown} ?? Number({model})",), min=(f"{bounds}[0]",), max=(f"{bounds}[1]",),
+                      step=(f"{bounds}[2]",), update_modelValue=move, end=release,
+                      update_focused=f"if (!$event) {{ {release} }}",
+                      density="compact", hide_details=True, color="#2f5d50", thumb_size=14, track_size=3,
+                      classes="hs-slider " + kwargs.pop("classes", ""), **kwargs)
+
+
 def section(title: str, value: str, icon: str):
     """An expansion panel with a title row; use the returned text block as a context."""
     panel = v3.VExpansionPanel(value=value, elevation=0, classes="hs-section")

@@ -11,7 +11,7 @@ import time
 from pathlib import Path
 
 import pytest
-from uidriver import DEMO, copy_demo_files, fill, open_section, require_browser, select_group, settle, wait_for
+from uidriver import DEMO, copy_demo_files, edits_sent, fill, open_section, require_browser, select_group, settle, wait_for
 
 pytestmark = pytest.mark.browser
 playwright_api = require_browser()
@@ -67,6 +67,49 @@ def test_schedule_edits_go_live_after_a_run_and_confirm_with_a_full_run(page, tm
     text = page.inner_text("#hs-live-text")
     gap = float(text.split("at most ")[1].split(" K")[0])
     assert gap < 1e-3 * 158  # within 1e-3 of the run's span (22 to 180 degC)
+
+
+def _drag(page, selector: str, fraction: float, steps: int = 30, seconds: float = 1.5) -> float:
+    """Drag the thumb of the slider ``selector`` to ``fraction`` of its track, slowly like a hand
+    (``steps`` moves over ``seconds``); returns the seconds the drag took."""
+    page.locator(selector).scroll_into_view_if_needed()
+    thumb = page.locator(f"{selector} .v-slider-thumb").bounding_box()
+    track = page.locator(f"{selector} .v-slider-track").bounding_box()
+    y = thumb["y"] + thumb["height"] / 2
+    page.mouse.move(thumb["x"] + thumb["width"] / 2, y)
+    start = time.perf_counter()
+    page.mouse.down()
+    x0, x1 = thumb["x"] + thumb["width"] / 2, track["x"] + fraction * track["width"]
+    for i in range(1, steps + 1):
+        page.mouse.move(x0 + (x1 - x0) * i / steps, y)
+        page.wait_for_timeout(1000 * seconds / steps)
+    page.mouse.up()
+    return time.perf_counter() - start
+
+
+def test_dragging_a_ramp_slider_moves_the_estimate_and_the_number(page, tmp_path):
+    page.locator("#hs-view-mode button:has-text('set-up')").click()
+    select_group(page, "bore")
+    # count the duration values the browser sends while the slider is dragged
+    page.evaluate("() => { window.sent = []; trame.state.watch(['hs_e_over'], v => window.sent.push(v)); }")
+    took = _drag(page, "#hs-ramp-over-slider", 0.02)  # 2 % of the run's 3600 s
+    edits_sent(page)
+    over = float(page.input_value("#hs-ramp-over"))
+    page.screenshot(path=str(tmp_path / "sliders-page.png"))
+    assert 0 < over < 150.0  # from 200 s to about 72 s
+    assert _state(page, "hs_e_over") == over
+    sent = page.evaluate("() => window.sent")
+    # a few values a second while dragging, plus the one released at (30 mouse moves were made)
+    assert 1 <= len(sent) <= took / 0.25 + 2, sent
+    assert float(sent[-1]) == over
+    wait_for(lambda: "estimate from the reduced model" in page.inner_text("#hs-live-text"), 10,
+             what="the estimate to follow the slider")
+    fig = _state(page, "hs_probe_fig")
+    # a faster ramp than the confirmed full run's 200 s heats the sleeve sooner
+    full = next(t["meta"]["run"] for t in fig["data"] if t["meta"]["run"] != "estimate")  # the faint run
+    assert full != 1  # the confirming run of the test above, not the first 600 s one
+    assert max(a - b for a, b in zip(_sleeve(fig, "estimate"), _sleeve(fig, full))) > 1.0
+    page.locator("#hs-editor").screenshot(path=str(tmp_path / "sliders.png"))
 
 
 def test_a_non_schedule_edit_says_the_live_model_is_stale_and_why(page):

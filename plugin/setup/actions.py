@@ -22,6 +22,7 @@ from heatsoak.plugin.load import listing
 from heatsoak.plugin.results import plots
 from heatsoak.plugin.scene import group_colour
 from heatsoak.plugin.setup import materials as material_actions
+from heatsoak.plugin.setup import sliders
 from heatsoak.plugin.setup.forms import (
     KIND_UNITS,
     KINDS,
@@ -59,6 +60,7 @@ def register(panel) -> None:
     material_actions.register(panel, validate)
     register_time(panel)
     register_probes(panel)
+    sliders.register(panel)
 
 
 def register_conditions(panel) -> None:

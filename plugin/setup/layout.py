@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from heatsoak.plugin.widgets import after_edits, errors_of, note, number, section
+from heatsoak.plugin.widgets import after_edits, errors_of, note, number, section, slider
 from trame.widgets import html
 from trame.widgets import vuetify3 as v3
 
@@ -132,13 +132,13 @@ def condition_editor(panel) -> None:
                 v3.VBtn("constant", value="constant", size="small")
                 v3.VBtn("ramp", value="ramp", size="small")
                 v3.VBtn("table", value="table", size="small")
-            number("hs_e_value", "Value", ("hs_bc_unit",), f"{g}value'", v_if="hs_e_shape == 'constant'",
-                   bg_color="white", id="hs-value")
+            with html.Div(v_if="hs_e_shape == 'constant'"):
+                slid_number("value", "Value", ("hs_bc_unit",), f"{g}value'", "hs-value")
             with v3.VRow(v_if="hs_e_shape == 'ramp'", dense=True, id="hs-ramp"):
                 for key, label, unit in (("start", "Start value", ("hs_bc_unit",)), ("end", "End value", ("hs_bc_unit",)),
                                          ("at", "Start time", "s"), ("over", "Duration", "s")):
                     with v3.VCol(cols=6):
-                        number(f"hs_e_{key}", label, unit, f"{g}{key}'", bg_color="white", id=f"hs-ramp-{key}")
+                        slid_number(key, label, unit, f"{g}{key}'", f"hs-ramp-{key}")
             with html.Div(v_if="hs_e_shape == 'table'"):
                 v3.VTextarea(v_model=("hs_e_table",), label="time [s], value — one pair per line",
                              rows=4, auto_grow=True, density="compact", variant="outlined", hide_details="auto",
@@ -148,6 +148,14 @@ def condition_editor(panel) -> None:
                               variant="outlined", accept=".csv,.txt", hide_details="auto", classes="mt-1",
                               prepend_icon="mdi-table-arrow-up", bg_color="white")
             html.Div(v_html=("hs_preview",), classes="hs-plot mt-1", id="hs-preview")
+
+
+def slid_number(key: str, label: str, unit, field: str, id: str) -> None:
+    """The condition editor's number ``hs_e_<key>`` with a slider under it (id ``<id>-slider``): a drag
+    edits the same number, so with the live what-if on the curves follow the drag."""
+    number(f"hs_e_{key}", label, unit, field, bg_color="white", id=id)
+    with html.Div(id=f"{id}-slider"):
+        slider(f"hs_e_{key}", f"(hs_ranges.{key} || [0, 1, 0.01])", classes="mb-1")
 
 
 def materials_section(panel) -> None:

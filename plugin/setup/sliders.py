@@ -1,0 +1,96 @@
+"""Ranges of the sliders beside the schedule numbers of the condition editor.
+
+A range is chosen once for a group, kind and time window, and kept while the value stays inside it:
+a drag never moves the scale under the mouse; a typed value outside the range widens it.
+"""
+
+from __future__ import annotations
+
+import math
+
+from heatsoak.plugin.setup.forms import KIND_UNITS
+
+#: Schedule numbers of a condition form that get a slider.
+SLID = ("value", "start", "end", "at", "over")
+#: Roughly how many slider steps span a range.
+STEPS = 200
+#: Below / above the lowest / highest temperature in view, a temperature slider reaches [K]
+#: (room to try a colder or a hotter schedule; common practice, no source).
+BELOW_K, ABOVE_K = 50.0, 100.0
+#: Half-width of a heat-flux range when all its values are zero [W/m²].
+FLUX_SPAN = 1000.0
+
+
+def nice_step(width: float) -> float:
+    """The largest 1, 2 or 5 times a power of ten not above ``width / STEPS`` (at least 1e-6)."""
+    raw = max(width / STEPS, 1e-6)
+    power = 10.0 ** math.floor(math.log10(raw))
+    return max(m * power for m in (1, 2, 5) if m * power <= raw * (1 + 1e-9))
+
+
+def _numbers(values) -> list:
+    out = []
+    for v in values:
+        try:
+            x = float(v)
+        except (TypeError, ValueError):
+            continue
+        if math.isfinite(x):
+            out.append(x)
+    return out
+
+
+def value_range(kind: str, values, initial) -> list:
+    """``[min, max, step]`` of a schedule value: temperatures from the lowest of the values and the
+    initial temperature less 50 K to the highest plus 100 K [degC]; heat fluxes twice the largest
+    magnitude either side [W/m²]."""
+    vals = _numbers(values) or [0.0]
+    if KIND_UNITS.get(kind) == "°C":
+        lo, hi = min(vals + _numbers([initial])) - BELOW_K, max(vals + _numbers([initial])) + ABOVE_K
+    else:
+        span = 2.0 * max(abs(v) for v in vals) or FLUX_SPAN
+        lo, hi = min(vals) - span, max(vals) + span
+    step = nice_step(hi - lo)
+    return [math.floor(lo / step) * step, math.ceil(hi / step) * step, step]
+
+
+def slider_ranges(kind: str, form: dict, initial, end) -> dict:
+    """``{field: [min, max, step]}`` for the fields of :data:`SLID`: values by :func:`value_range`,
+    the start time from 0 and the duration from one step, both to the run's end [s]."""
+    end = (_numbers([end]) or [600.0])[0]
+    end = end if end > 0 else 600.0
+    span = value_range(kind, [form.get(k) for k in ("value", "start", "end")], initial)
+    step = nice_step(end)
+    return {"value": span, "start": span, "end": span, "at": [0.0, end, step], "over": [step, end, step]}
+
+
+def _inside(bounds, value) -> bool:
+    x = _numbers([value])
+    return bool(bounds) and bool(x) and bounds[0] <= x[0] <= bounds[1]
+
+
+def register(panel) -> None:
+    """Keep ``hs_ranges`` fitting the edited condition; ``hs_slide`` (the values being dragged) and
+    ``hs_slide_t`` (when a dragged value was last sent) stay in the browser."""
+    state = panel.state
+    state.update({"hs_ranges": {}, "hs_slide": {}, "hs_slide_t": 0})
+    state.client_only("hs_slide", "hs_slide_t")
+    panel.slider_context = None
+
+    @state.change("hs_editor_group", "hs_e_kind", "hs_t_end", "hs_initial", *(f"hs_e_{k}" for k in SLID))
+    def on_range_inputs(**_):
+        update_ranges(panel)
+
+
+def update_ranges(panel) -> None:
+    """New ranges for a new group, kind, initial temperature or end time; otherwise a field keeps its
+    range while its value lies inside."""
+    state = panel.state
+    context = (state.hs_editor_group, state.hs_e_kind, state.hs_initial, state.hs_t_end)
+    form = {k: state[f"hs_e_{k}"] for k in SLID}
+    fresh = slider_ranges(state.hs_e_kind, form, state.hs_initial, state.hs_t_end)
+    old = state.hs_ranges if panel.slider_context == context else {}
+    ranges = {k: old[k] if _inside(old.get(k), form[k]) else r for k, r in fresh.items()}
+    panel.slider_context = context
+    if ranges != state.hs_ranges:
+        state.hs_ranges = ranges
