@@ -48,11 +48,17 @@ def slider(model: str, bounds: str, **kwargs):
     ``model`` is sent at most every :data:`SLIDE_MS` while dragging, and on release or when the slider loses focus
     (arrow keys).
     """
-    shown = f"hs_slide['{model}']"
-    release = f"{model} = {shown} ?? {model}; hs_slide = {{}}"
-    move = (f"hs_slide = {{...hs_slide, '{model}': $event}}; "
-            f"if (Date.now() - hs_slide_t > {SLIDE_MS}) {{ hs_slide_t = Date.now(); {model} = $event }}")
-    return v3.VSlider(model_value=(f"{shown} ?? Number({model})",), min=(f"{bounds}[0]",), max=(f"{bounds}[1]",),
+    return sending_slider(f"'{model}'", f"Number({model})", f"{model} = VALUE", bounds, **kwargs)
+
+
+def sending_slider(slot: str, value: str, send: str, bounds: str, **kwargs):
+    """A slider showing the JS ``value`` that runs the JS statement ``send`` (``VALUE`` stands for the
+    value) as :func:`slider` sends its model; ``slot`` is a JS expression naming its entry in ``hs_slide``."""
+    shown = f"hs_slide[{slot}]"
+    release = f"if ({shown} !== undefined) {{ {send.replace('VALUE', shown)} }}; hs_slide = {{}}"
+    move = (f"hs_slide = {{...hs_slide, [{slot}]: $event}}; if (Date.now() - hs_slide_t > {SLIDE_MS}) "
+            f"{{ hs_slide_t = Date.now(); {send.replace('VALUE', '$event')} }}")
+    return v3.VSlider(model_value=(f"{shown} ?? {value}",), min=(f"{bounds}[0]",), max=(f"{bounds}[1]",),
                       step=(f"{bounds}[2]",), update_modelValue=move, end=release,
                       update_focused=f"if (!$event) {{ {release} }}",
                       density="compact", hide_details=True, color="#2f5d50", thumb_size=14, track_size=3,

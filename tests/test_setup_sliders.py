@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import pytest
-from heatsoak.plugin.setup.sliders import nice_step, slider_ranges, value_range
+from heatsoak.plugin.setup.sliders import nice_step, slider_ranges, table_rows, value_range
 
 
 @pytest.mark.parametrize(("width", "step"), [(200.0, 1.0), (330.0, 1.0), (600.0, 2.0), (3600.0, 10.0), (1.5, 0.005)])
@@ -29,3 +29,11 @@ def test_times_run_from_zero_and_durations_from_one_step_to_the_end_of_the_run()
     assert ranges["at"] == [0.0, 3600.0, 10.0] and ranges["over"] == [10.0, 3600.0, 10.0]
     assert ranges["start"] == ranges["end"] == ranges["value"]
     assert slider_ranges("temperature", form, 20.0, "not a number")["at"][1] == 600.0
+
+
+def test_table_values_get_their_own_range_and_an_unreadable_table_none_of_its_rows():
+    form = {"value": 20.0, "start": 20.0, "end": 100.0, "at": 0.0, "over": 300.0,
+            "table": "time, value\n0, 22\n600, 300"}
+    assert slider_ranges("temperature", form, 20.0, 600.0)["table"][:2] == [-30.0, 400.0]
+    assert table_rows("0, 22\n600, x") == []
+    assert table_rows("time, value\n0, 22\n600, 300") == [[0.0, 22.0], [600.0, 300.0]]

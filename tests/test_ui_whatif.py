@@ -112,6 +112,22 @@ def test_dragging_a_ramp_slider_moves_the_estimate_and_the_number(page, tmp_path
     page.locator("#hs-editor").screenshot(path=str(tmp_path / "sliders.png"))
 
 
+def test_a_table_row_slider_rewrites_its_row_and_the_estimate_follows(page, tmp_path):
+    select_group(page, "base")
+    rows = [line for line in page.input_value("#hs-table").splitlines() if line.strip()]
+    before = _state(page, "hs_probe_fig")
+    _drag(page, "#hs-table-row-1", 1.0, steps=10, seconds=0.6)  # the second row to the top of its range
+    edits_sent(page)
+    wait_for(lambda: _state(page, "hs_probe_fig") != before, 10, what="the estimate to follow the table")
+    after = [line for line in page.input_value("#hs-table").splitlines() if line.strip()]
+    assert len(after) == len(rows) - ("time" in rows[0])  # a header line, if any, is not kept
+    t, v = (float(x) for x in after[1].split(","))
+    top = _state(page, "hs_ranges")["table"][1]
+    assert t == float(_state(page, "hs_table_times")[1]) and v == top
+    assert "estimate from the reduced model" in page.inner_text("#hs-live-text")
+    page.locator("#hs-editor").screenshot(path=str(tmp_path / "table-sliders.png"))
+
+
 def test_a_non_schedule_edit_says_the_live_model_is_stale_and_why(page):
     page.locator("#hs-view-mode button:has-text('set-up')").click()
     open_section(page, "Start and time")

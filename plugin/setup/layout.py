@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from heatsoak.plugin.widgets import after_edits, errors_of, note, number, section, slider
+from heatsoak.plugin.widgets import after_edits, errors_of, note, number, section, sending_slider, slider
 from trame.widgets import html
 from trame.widgets import vuetify3 as v3
 
@@ -147,6 +147,7 @@ def condition_editor(panel) -> None:
                 v3.VFileInput(v_model=("hs_table_upload", None), label="or read a CSV file", density="compact",
                               variant="outlined", accept=".csv,.txt", hide_details="auto", classes="mt-1",
                               prepend_icon="mdi-table-arrow-up", bg_color="white")
+                table_sliders()
             html.Div(v_html=("hs_preview",), classes="hs-plot mt-1", id="hs-preview")
 
 
@@ -156,6 +157,16 @@ def slid_number(key: str, label: str, unit, field: str, id: str) -> None:
     number(f"hs_e_{key}", label, unit, field, bg_color="white", id=id)
     with html.Div(id=f"{id}-slider"):
         slider(f"hs_e_{key}", f"(hs_ranges.{key} || [0, 1, 0.01])", classes="mb-1")
+
+
+def table_sliders() -> None:
+    """A slider per row of a readable table, for the row's value (a drag rewrites the table's text)."""
+    with html.Div(v_for="(v, i) in hs_table_values", key="i", classes="d-flex align-center hs-table-row",
+                  id=("`hs-table-row-${i}`",)):
+        html.Span("{{ hs_table_times[i] }} s", classes="text-caption hs-ink mr-2", style="min-width: 4.5em")
+        sending_slider("'row' + i", "v", "hs_table_edit = [i, VALUE]", "(hs_ranges.table || [0, 1, 0.01])")
+        html.Span("{{ (hs_slide['row' + i] ?? v).toPrecision(4) }} {{ hs_bc_unit }}",
+                  classes="text-caption ml-2", style="min-width: 5em")
 
 
 def materials_section(panel) -> None:

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import math
 
-from heatsoak.plugin.setup.forms import KIND_UNITS
+from heatsoak.plugin.setup.forms import KIND_UNITS, FormError, parse_table_text
 
 #: Schedule numbers of a condition form that get a slider.
 SLID = ("value", "start", "end", "at", "over")
@@ -17,6 +17,8 @@ STEPS = 200
 #: Below / above the lowest / highest temperature in view, a temperature slider reaches [K]
 #: (room to try a colder or a hotter schedule; common practice, no source).
 BELOW_K, ABOVE_K = 50.0, 100.0
+#: Tables of more rows than this get no sliders (their values are edited as text).
+MAX_TABLE_SLIDERS = 24
 #: Half-width of a heat-flux range when all its values are zero [W/m²].
 FLUX_SPAN = 1000.0
 
@@ -54,32 +56,62 @@ def value_range(kind: str, values, initial) -> list:
     return [math.floor(lo / step) * step, math.ceil(hi / step) * step, step]
 
 
+def table_rows(text) -> list:
+    """Rows ``[[t, v], ...]`` of a table's text, or ``[]`` while it cannot be read."""
+    try:
+        return parse_table_text(text, "table")
+    except FormError:
+        return []
+
+
 def slider_ranges(kind: str, form: dict, initial, end) -> dict:
-    """``{field: [min, max, step]}`` for the fields of :data:`SLID`: values by :func:`value_range`,
-    the start time from 0 and the duration from one step, both to the run's end [s]."""
+    """``{field: [min, max, step]}`` for the fields of :data:`SLID` and the table's values: values by
+    :func:`value_range`, the start time from 0 and the duration from one step, both to the run's end [s]."""
     end = (_numbers([end]) or [600.0])[0]
     end = end if end > 0 else 600.0
     span = value_range(kind, [form.get(k) for k in ("value", "start", "end")], initial)
     step = nice_step(end)
-    return {"value": span, "start": span, "end": span, "at": [0.0, end, step], "over": [step, end, step]}
+    table = value_range(kind, [v for _, v in table_rows(form.get("table", ""))], initial)
+    return {"value": span, "start": span, "end": span, "at": [0.0, end, step], "over": [step, end, step],
+            "table": table}
 
 
-def _inside(bounds, value) -> bool:
-    x = _numbers([value])
-    return bool(bounds) and bool(x) and bounds[0] <= x[0] <= bounds[1]
+def _inside(bounds, value, table: bool = False) -> bool:
+    """Whether the number ``value`` (or every value of a table's text) lies within ``bounds``."""
+    x = [v for _, v in table_rows(value)] if table else _numbers([value])
+    return bool(bounds) and bool(x) and bounds[0] <= min(x) and max(x) <= bounds[1]
 
 
 def register(panel) -> None:
     """Keep ``hs_ranges`` fitting the edited condition; ``hs_slide`` (the values being dragged) and
     ``hs_slide_t`` (when a dragged value was last sent) stay in the browser."""
     state = panel.state
-    state.update({"hs_ranges": {}, "hs_slide": {}, "hs_slide_t": 0})
+    state.update({"hs_ranges": {}, "hs_slide": {}, "hs_slide_t": 0, "hs_table_values": [], "hs_table_times": [],
+                  "hs_table_edit": None})
     state.client_only("hs_slide", "hs_slide_t")
     panel.slider_context = None
 
-    @state.change("hs_editor_group", "hs_e_kind", "hs_t_end", "hs_initial", *(f"hs_e_{k}" for k in SLID))
+    @state.change("hs_editor_group", "hs_e_kind", "hs_t_end", "hs_initial", *(f"hs_e_{k}" for k in (*SLID, "table")))
     def on_range_inputs(**_):
         update_ranges(panel)
+
+    @state.change("hs_e_table")
+    def on_table(hs_e_table="", **_):
+        rows = table_rows(hs_e_table)
+        rows = rows if len(rows) <= MAX_TABLE_SLIDERS else []
+        state.hs_table_times, state.hs_table_values = [f"{t:g}" for t, _ in rows], [v for _, v in rows]
+
+    @state.change("hs_table_edit")
+    def on_table_slider(hs_table_edit=None, **_):
+        """A table row's slider moved: write its value into the table's text."""
+        rows = table_rows(state.hs_e_table)
+        try:
+            i, value = int(hs_table_edit[0]), float(hs_table_edit[1])
+        except (TypeError, ValueError, IndexError):
+            return
+        if 0 <= i < len(rows) and math.isfinite(value):
+            rows[i][1] = value
+            state.hs_e_table = "\n".join(f"{t:.12g}, {v:.12g}" for t, v in rows)
 
 
 def update_ranges(panel) -> None:
@@ -87,10 +119,10 @@ def update_ranges(panel) -> None:
     range while its value lies inside."""
     state = panel.state
     context = (state.hs_editor_group, state.hs_e_kind, state.hs_initial, state.hs_t_end)
-    form = {k: state[f"hs_e_{k}"] for k in SLID}
+    form = {k: state[f"hs_e_{k}"] for k in (*SLID, "table")}
     fresh = slider_ranges(state.hs_e_kind, form, state.hs_initial, state.hs_t_end)
     old = state.hs_ranges if panel.slider_context == context else {}
-    ranges = {k: old[k] if _inside(old.get(k), form[k]) else r for k, r in fresh.items()}
+    ranges = {k: old[k] if _inside(old.get(k), form[k], k == "table") else r for k, r in fresh.items()}
     panel.slider_context = context
     if ranges != state.hs_ranges:
         state.hs_ranges = ranges
