@@ -8,18 +8,25 @@ One ``heatsoak ui`` server serves the whole module, in order.
 from __future__ import annotations
 
 import time
-from pathlib import Path
 
 import pytest
-from uidriver import DEMO, copy_demo_files, edits_sent, fill, open_section, require_browser, select_group, settle, wait_for
+from uidriver import (
+    demo_data,
+    drag_slider,
+    edits_sent,
+    fill,
+    open_section,
+    require_browser,
+    select_group,
+    settle,
+    wait_for,
+)
 
 pytestmark = pytest.mark.browser
 playwright_api = require_browser()
 
 
-@pytest.fixture(scope="module")
-def data_dir(tmp_path_factory) -> Path:
-    return copy_demo_files(tmp_path_factory.mktemp("whatif-ui"), (DEMO.name, "platen.msh", "platen_base.csv"))
+data_dir = demo_data("whatif-ui")
 
 
 def _state(page, key):
@@ -69,30 +76,12 @@ def test_schedule_edits_go_live_after_a_run_and_confirm_with_a_full_run(page, tm
     assert gap < 1e-3 * 158  # within 1e-3 of the run's span (22 to 180 degC)
 
 
-def _drag(page, selector: str, fraction: float, steps: int = 30, seconds: float = 1.5) -> float:
-    """Drag the thumb of the slider ``selector`` to ``fraction`` of its track, slowly like a hand
-    (``steps`` moves over ``seconds``); returns the seconds the drag took."""
-    page.locator(selector).scroll_into_view_if_needed()
-    thumb = page.locator(f"{selector} .v-slider-thumb").bounding_box()
-    track = page.locator(f"{selector} .v-slider-track").bounding_box()
-    y = thumb["y"] + thumb["height"] / 2
-    page.mouse.move(thumb["x"] + thumb["width"] / 2, y)
-    start = time.perf_counter()
-    page.mouse.down()
-    x0, x1 = thumb["x"] + thumb["width"] / 2, track["x"] + fraction * track["width"]
-    for i in range(1, steps + 1):
-        page.mouse.move(x0 + (x1 - x0) * i / steps, y)
-        page.wait_for_timeout(1000 * seconds / steps)
-    page.mouse.up()
-    return time.perf_counter() - start
-
-
 def test_dragging_a_ramp_slider_moves_the_estimate_and_the_number(page, tmp_path):
     page.locator("#hs-view-mode button:has-text('set-up')").click()
     select_group(page, "bore")
     # count the duration values the browser sends while the slider is dragged
     page.evaluate("() => { window.sent = []; trame.state.watch(['hs_e_over'], v => window.sent.push(v)); }")
-    took = _drag(page, "#hs-ramp-over-slider", 0.02)  # 2 % of the run's 3600 s
+    took = drag_slider(page, "#hs-ramp-over-slider", 0.02)  # 2 % of the run's 3600 s
     edits_sent(page)
     over = float(page.input_value("#hs-ramp-over"))
     page.screenshot(path=str(tmp_path / "sliders-page.png"))
@@ -116,14 +105,18 @@ def test_a_table_row_slider_rewrites_its_row_and_the_estimate_follows(page, tmp_
     select_group(page, "base")
     rows = [line for line in page.input_value("#hs-table").splitlines() if line.strip()]
     before = _state(page, "hs_probe_fig")
-    _drag(page, "#hs-table-row-1", 1.0, steps=10, seconds=0.6)  # the second row to the top of its range
+    drag_slider(page, "#hs-table-row-1", 1.0, steps=10, seconds=0.6)  # the second row to the top of its range
     edits_sent(page)
     wait_for(lambda: _state(page, "hs_probe_fig") != before, 10, what="the estimate to follow the table")
-    after = [line for line in page.input_value("#hs-table").splitlines() if line.strip()]
-    assert len(after) == len(rows) - ("time" in rows[0])  # a header line, if any, is not kept
-    t, v = (float(x) for x in after[1].split(","))
     top = _state(page, "hs_ranges")["table"][1]
-    assert t == float(_state(page, "hs_table_times")[1]) and v == top
+
+    def second_row():  # the server writes the row released at into the text a moment after the drag
+        after = [line for line in page.input_value("#hs-table").splitlines() if line.strip()]
+        return after if [float(x) for x in after[1].split(",")][1] == top else None
+
+    after = wait_for(second_row, 5, what="the table's second row at the top of its range")
+    assert len(after) == len(rows) - ("time" in rows[0])  # a header line, if any, is not kept
+    assert float(after[1].split(",")[0]) == float(_state(page, "hs_table_times")[1])  # its time is kept
     assert "estimate from the reduced model" in page.inner_text("#hs-live-text")
     page.locator("#hs-editor").screenshot(path=str(tmp_path / "table-sliders.png"))
 

@@ -133,12 +133,12 @@ def condition_editor(panel) -> None:
                 v3.VBtn("ramp", value="ramp", size="small")
                 v3.VBtn("table", value="table", size="small")
             with html.Div(v_if="hs_e_shape == 'constant'"):
-                slid_number("value", "Value", ("hs_bc_unit",), f"{g}value'", "hs-value")
+                slid_number("value", "Value", ("hs_bc_unit",), f"{g}value'", "hs-value", bg_color="white")
             with v3.VRow(v_if="hs_e_shape == 'ramp'", dense=True, id="hs-ramp"):
                 for key, label, unit in (("start", "Start value", ("hs_bc_unit",)), ("end", "End value", ("hs_bc_unit",)),
                                          ("at", "Start time", "s"), ("over", "Duration", "s")):
                     with v3.VCol(cols=6):
-                        slid_number(key, label, unit, f"{g}{key}'", f"hs-ramp-{key}")
+                        slid_number(key, label, unit, f"{g}{key}'", f"hs-ramp-{key}", bg_color="white")
             with html.Div(v_if="hs_e_shape == 'table'"):
                 v3.VTextarea(v_model=("hs_e_table",), label="time [s], value — one pair per line",
                              rows=4, auto_grow=True, density="compact", variant="outlined", hide_details="auto",
@@ -151,12 +151,13 @@ def condition_editor(panel) -> None:
             html.Div(v_html=("hs_preview",), classes="hs-plot mt-1", id="hs-preview")
 
 
-def slid_number(key: str, label: str, unit, field: str, id: str) -> None:
-    """The condition editor's number ``hs_e_<key>`` with a slider under it (id ``<id>-slider``): a drag
-    edits the same number, so with the live what-if on the curves follow the drag."""
-    number(f"hs_e_{key}", label, unit, field, bg_color="white", id=id)
+def slid_number(key: str, label: str, unit, field: str, id: str, prefix: str = "hs_e_", ranges: str = "hs_ranges",
+                **kwargs) -> None:
+    """The number ``<prefix><key>`` with a slider under it (id ``<id>-slider``) in the range
+    ``<ranges>.<key>``: a drag edits the same number, so with the live what-if on the curves follow it."""
+    number(f"{prefix}{key}", label, unit, field, id=id, **kwargs)
     with html.Div(id=f"{id}-slider"):
-        slider(f"hs_e_{key}", f"(hs_ranges.{key} || [0, 1, 0.01])", classes="mb-1")
+        slider(f"{prefix}{key}", f"({ranges}.{key} || [0, 1, 0.01])", classes="mb-1")
 
 
 def table_sliders() -> None:
@@ -197,13 +198,14 @@ def source_editor() -> None:
                        variant="outlined", classes="mb-2", id="hs-src-shape", color="#2f5d50"):
         for shape in ("none", "constant", "ramp", "table"):
             v3.VBtn(shape, value=shape, size="small")
-    number("hs_m_source_value", "Heat source", "W/m³", f"{r}value'", v_if="hs_m_source_shape == 'constant'",
-           id="hs-src-value")
+    source = {"prefix": "hs_m_source_", "ranges": "hs_src_ranges"}
+    with html.Div(v_if="hs_m_source_shape == 'constant'"):
+        slid_number("value", "Heat source", "W/m³", f"{r}value'", "hs-src-value", **source)
     with v3.VRow(v_if="hs_m_source_shape == 'ramp'", dense=True, id="hs-src-ramp"):
         for key, label, unit in (("start", "Start value", "W/m³"), ("end", "End value", "W/m³"),
                                  ("at", "Start time", "s"), ("over", "Duration", "s")):
             with v3.VCol(cols=6):
-                number(f"hs_m_source_{key}", label, unit, f"{r}{key}'", id=f"hs-src-ramp-{key}")
+                slid_number(key, label, unit, f"{r}{key}'", f"hs-src-ramp-{key}", **source)
     v3.VTextarea(v_if="hs_m_source_shape == 'table'", v_model=("hs_m_source_table",),
                  label="time [s], heat source [W/m³] — one pair per line", rows=3, auto_grow=True,
                  density="compact", variant="outlined", hide_details="auto", error_messages=errors_of(f"{r}table'"),

@@ -83,17 +83,23 @@ def _inside(bounds, value, table: bool = False) -> bool:
 
 
 def register(panel) -> None:
-    """Keep ``hs_ranges`` fitting the edited condition; ``hs_slide`` (the values being dragged) and
-    ``hs_slide_t`` (when a dragged value was last sent) stay in the browser."""
+    """Keep ``hs_ranges`` fitting the edited condition and ``hs_src_ranges`` the region's heat source;
+    ``hs_slide`` (the values being dragged) and ``hs_slide_t`` (when a dragged value was last sent) stay
+    in the browser."""
     state = panel.state
-    state.update({"hs_ranges": {}, "hs_slide": {}, "hs_slide_t": 0, "hs_table_values": [], "hs_table_times": [],
-                  "hs_table_edit": None})
+    state.update({"hs_ranges": {}, "hs_src_ranges": {}, "hs_slide": {}, "hs_slide_t": 0, "hs_table_values": [],
+                  "hs_table_times": [], "hs_table_edit": None})
     state.client_only("hs_slide", "hs_slide_t")
-    panel.slider_context = None
+    panel.slider_context = {}
 
     @state.change("hs_editor_group", "hs_e_kind", "hs_t_end", "hs_initial", *(f"hs_e_{k}" for k in (*SLID, "table")))
     def on_range_inputs(**_):
         update_ranges(panel)
+
+    @state.change("hs_region", "hs_t_end", *(f"hs_m_source_{k}" for k in (*SLID, "table")))
+    def on_source_range_inputs(**_):
+        """Ranges of the selected region's heat-source sliders [W/m³ and s]."""
+        update_ranges(panel, "hs_m_source_", "hs_src_ranges", "hs_region", "source")
 
     @state.change("hs_e_table")
     def on_table(hs_e_table="", **_):
@@ -114,15 +120,18 @@ def register(panel) -> None:
             state.hs_e_table = "\n".join(f"{t:.12g}, {v:.12g}" for t, v in rows)
 
 
-def update_ranges(panel) -> None:
-    """New ranges for a new group, kind, initial temperature or end time; otherwise a field keeps its
-    range while its value lies inside."""
+def update_ranges(panel, prefix: str = "hs_e_", target: str = "hs_ranges", owner: str = "hs_editor_group",
+                  kind: str | None = None) -> None:
+    """New ranges (in state key ``target``) for the schedule fields ``<prefix><field>`` of a new group
+    or region (state key ``owner``), kind, initial temperature or end time; otherwise a field keeps its
+    range while its value lies inside. ``kind`` None means the edited condition's kind."""
     state = panel.state
-    context = (state.hs_editor_group, state.hs_e_kind, state.hs_initial, state.hs_t_end)
-    form = {k: state[f"hs_e_{k}"] for k in (*SLID, "table")}
-    fresh = slider_ranges(state.hs_e_kind, form, state.hs_initial, state.hs_t_end)
-    old = state.hs_ranges if panel.slider_context == context else {}
+    kind = kind or state.hs_e_kind
+    context = (state[owner], kind, state.hs_initial, state.hs_t_end)
+    form = {k: state[f"{prefix}{k}"] for k in (*SLID, "table")}
+    fresh = slider_ranges(kind, form, state.hs_initial, state.hs_t_end)
+    old = state[target] if panel.slider_context.get(target) == context else {}
     ranges = {k: old[k] if _inside(old.get(k), form[k], k == "table") else r for k, r in fresh.items()}
-    panel.slider_context = context
-    if ranges != state.hs_ranges:
-        state.hs_ranges = ranges
+    panel.slider_context[target] = context
+    if ranges != state[target]:
+        state[target] = ranges

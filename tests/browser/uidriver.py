@@ -232,3 +232,32 @@ def run_and_wait(page, runs_before: int) -> None:
     page.click("#hs-run")
     wait_for(lambda: page.locator(".hs-run-row").count() > runs_before, 90, what="the run to be listed")
     page.wait_for_selector("#hs-progress-text >> text=complete", timeout=30_000)
+
+
+def drag_slider(page, selector: str, fraction: float, steps: int = 30, seconds: float = 1.5) -> float:
+    """Drag the thumb of the slider ``selector`` to ``fraction`` of its track, slowly like a hand
+    (``steps`` moves over ``seconds``); returns the seconds the drag took."""
+    page.locator(selector).scroll_into_view_if_needed()
+    thumb = page.locator(f"{selector} .v-slider-thumb").bounding_box()
+    track = page.locator(f"{selector} .v-slider-track").bounding_box()
+    y = thumb["y"] + thumb["height"] / 2
+    page.mouse.move(thumb["x"] + thumb["width"] / 2, y)
+    start = time.perf_counter()
+    page.mouse.down()
+    x0, x1 = thumb["x"] + thumb["width"] / 2, track["x"] + fraction * track["width"]
+    for i in range(1, steps + 1):
+        page.mouse.move(x0 + (x1 - x0) * i / steps, y)
+        page.wait_for_timeout(1000 * seconds / steps)
+    page.mouse.up()
+    return time.perf_counter() - start
+
+
+def demo_data(name: str, files=(DEMO.name, "platen.msh", "platen_base.csv")):
+    """A module-scoped ``data_dir`` fixture: a fresh folder ``name`` holding the demo ``files``."""
+    import pytest
+
+    @pytest.fixture(scope="module")
+    def data_dir(tmp_path_factory) -> Path:
+        return copy_demo_files(tmp_path_factory.mktemp(name), files)
+
+    return data_dir
