@@ -7,10 +7,7 @@ from heatsoak.plugin.runs.store import mesh_key
 
 def current_key(panel) -> str:
     """Content key of the mesh open now ("" with none), computed once per mesh read."""
-    cached = getattr(panel, "_mesh_key", (None, ""))
-    if cached[0] is not panel.mesh:
-        panel._mesh_key = cached = (panel.mesh, "" if panel.mesh is None else mesh_key(panel.mesh))
-    return cached[1]
+    return "" if panel.mesh is None else mesh_key(panel.mesh)
 
 
 def is_here(panel, run) -> bool:

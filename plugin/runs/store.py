@@ -6,6 +6,7 @@ import csv
 import hashlib
 import json
 import shutil
+import weakref
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -84,16 +85,24 @@ class Run:
                 "mesh": self.mesh_name, "base": self.base_id}
 
 
+#: Keys already computed, per mesh object (a mesh is immutable; hashing 1M cells takes about 0.3 s).
+_KEYS: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
+
+
 def mesh_key(mesh) -> str:
     """Identity of a mesh by what it holds, not by the object in memory: a digest of its node
     coordinates [m] (so the length unit it was read in counts), its cells and their regions.
-    The same file opened again gives the same key; any other mesh, another one."""
-    digest = hashlib.blake2b(digest_size=16)
-    for array in (mesh.points, mesh.cells, mesh.cell_region):
-        a = np.ascontiguousarray(array)
-        digest.update(f"{a.dtype.str}{a.shape}".encode())
-        digest.update(a.data)
-    return digest.hexdigest()
+    The same file opened again gives the same key; any other mesh, another one. Computed once
+    per mesh object."""
+    key = _KEYS.get(mesh)
+    if key is None:
+        digest = hashlib.blake2b(digest_size=16)
+        for array in (mesh.points, mesh.cells, mesh.cell_region):
+            a = np.ascontiguousarray(array)
+            digest.update(f"{a.dtype.str}{a.shape}".encode())
+            digest.update(a.data)
+        key = _KEYS[mesh] = digest.hexdigest()
+    return key
 
 
 def mesh_label(mesh) -> str:
