@@ -3,50 +3,31 @@ animation keeps the frames it made. Headless chromium on ``heatsoak ui`` with th
 
 from __future__ import annotations
 
-import os
-import time
 from pathlib import Path
 
 import pytest
-from uidriver import MESHES, copy_demo_files, fill, open_section, require_browser, settle, wait_for
+from uidriver import (
+    MESHES,
+    RESPONSE_S,
+    copy_demo_files,
+    fill,
+    median_of,
+    open_section,
+    require_browser,
+    settle,
+    state,
+    timed,
+    timed_change,
+    wait_for,
+)
 
 pytestmark = pytest.mark.browser
 playwright_api = require_browser()
-
-#: Most seconds between a press and the server's answer reaching the page while both jobs work (the
-#: issue's bound). The browser's own redraw comes on top: 0.2-0.7 s on the shared test machine.
-#: HEATSOAK_UI_ANSWER_S sets another bound on a machine loaded far beyond its cores.
-RESPONSE_S = float(os.environ.get("HEATSOAK_UI_ANSWER_S", "1.0"))
-
 
 @pytest.fixture(scope="module")
 def data_dir(tmp_path_factory) -> Path:
     names = [p.name for p in MESHES.iterdir() if p.suffix in (".toml", ".msh", ".csv")]
     return copy_demo_files(tmp_path_factory.mktemp("ui-jobs-data"), names)
-
-
-def state(page, key: str):
-    """The value of ``key`` in the page's copy of the server state."""
-    return page.evaluate(f"trame.state.get('{key}')")
-
-
-def timed(action, done, what: str) -> float:
-    """Seconds from ``action()`` until ``done()`` holds."""
-    start = time.monotonic()
-    action()
-    wait_for(done, 15, interval=0.02, what=what)
-    return time.monotonic() - start
-
-
-def timed_change(page, key: str, action) -> float:
-    """Seconds from ``action()`` until the page's ``key`` changes."""
-    before = state(page, key)
-    return timed(action, lambda: state(page, key) != before, f"{key} to change")
-
-
-def median_of(n: int, measure) -> float:
-    """Median of ``measure(i)`` for i = 0 .. n-1 (one slow moment of a shared machine is not the UI)."""
-    return sorted(measure(i) for i in range(n))[n // 2]
 
 
 def test_first_run_of_the_demo(page):

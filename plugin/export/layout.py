@@ -1,12 +1,16 @@
-"""The animation being made: its phase, progress and cancel, and the hook that saves it when done."""
+"""The export job under way (results zip, picture or animation): its phase, progress and cancel, and the
+hook that saves its file when done."""
 
 from __future__ import annotations
 
 from trame.widgets import client, html
 from trame.widgets import vuetify3 as v3
 
-#: Client code run when a job's file is ready: fetch it once and let the browser save it.
-SAVE_READY_JS = "trigger('hs_take_download').then(d => d != null && utils.download($event.name, d, $event.mime))"
+#: Client code run when a job's file is ready: fetch it once and let the browser save it (a big file from its
+#: one-time address, so the browser streams it to disk).
+SAVE_READY_JS = ("$event.url ? Object.assign(utils.get('document').createElement('a'),"
+                 " {href: $event.url, download: $event.name}).click()"
+                 " : trigger('hs_take_download').then(d => d != null && utils.download($event.name, d, $event.mime))")
 
 
 def job_line(panel) -> None:
@@ -19,6 +23,6 @@ def job_line(panel) -> None:
             v3.VProgressLinear(model_value=("hs_export_job ? hs_export_job.percent : 0",), height=5, rounded=True,
                                color="#2f5d50", bg_color="#cfd8d3", classes="flex-grow-1")
             v3.VBtn(icon="mdi-close-circle-outline", size="x-small", variant="text", color="#8c3b2e",
-                    title="cancel (keeps the frames made so far)", id="hs-export-cancel",
+                    title=("hs_export_job ? hs_export_job.hint : 'cancel'",), id="hs-export-cancel",
                     click=(ctrl.hs_cancel_job, "[hs_export_job.id]"))
         html.Span("{{ hs_export_job ? hs_export_job.text : '' }}", classes="text-caption", id="hs-export-job-text")

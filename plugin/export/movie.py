@@ -1,5 +1,7 @@
 """An animation of a run as a job: frames rendered off-screen in a worker process, then encoded.
 
+A picture (PNG) of the view is the same job with one frame.
+
 The UI sends what its view shows (the result surface with its map to the
 volume nodes, camera, colours); the worker reads the run's frames from its
 results folder, so the UI's process renders nothing.
@@ -58,7 +60,9 @@ class MovieSpec:
 
 
 def encode_movie(images, fps: int, fmt: str = "gif") -> bytes:
-    """GIF (looping) or MP4 bytes of RGB frames, each (h, w, 3) uint8."""
+    """GIF (looping) or MP4 bytes of RGB frames, each (h, w, 3) uint8; PNG bytes of the first frame."""
+    if fmt == "png":
+        return iio.imwrite("<bytes>", images[0], extension=".png")
     if fmt == "gif":
         return iio.imwrite("<bytes>", images, extension=".gif", duration=1000 // fps, loop=0)
     return _mp4_ffmpeg(images, fps)

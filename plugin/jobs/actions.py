@@ -19,6 +19,8 @@ POLL_S = 0.25
 WARM = {"run": ("heatsoak.plugin.run.work",), "export": ("heatsoak.plugin.export.movie",)}
 #: What a phase's items are called in the progress line.
 ITEMS = {"stepping": "step", "rendering": "frame"}
+#: Phases whose line does not promise a time left after the first items (too short, or counted in bytes).
+QUIET = ("writing", "packing")
 
 
 def register(panel) -> None:
@@ -75,7 +77,7 @@ def status_text(job) -> str:
     ``stepping · step 12 of 60 · t = 120 s of 600 s · about 8 s left``."""
     parts = [job.phase]
     if job.cancel_asked is not None:
-        return f"{job.phase} · stopping, keeping what is done..."
+        return f"{job.phase} · stopping, " + ("nothing is kept..." if job.phase == "packing" else "keeping what is done...")
     item = ITEMS.get(job.phase)
     if item and job.done:
         parts.append(f"{item} {job.done}" + (f" of {job.total}" if job.total else ""))
@@ -86,7 +88,7 @@ def status_text(job) -> str:
     eta = job.eta_s
     if eta is not None:
         parts.append(f"about {seconds(eta)} left" if eta >= 1 else "under 1 s left")
-    elif job.phase != "writing":
+    elif job.phase not in QUIET:
         parts.append(f"time left known after the first {ITEMS.get(job.phase, 'step')}s")
     return " · ".join(parts)
 

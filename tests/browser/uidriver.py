@@ -59,15 +59,15 @@ def free_port() -> int:
 
 
 class UiServer:
-    """``heatsoak ui CASE --server`` on a free loopback port, as a subprocess."""
+    """``heatsoak ui CASE --server`` on a free loopback port, as a subprocess (``extra``: more arguments)."""
 
-    def __init__(self, case: Path, data_dir: Path, log_dir: Path):
+    def __init__(self, case: Path, data_dir: Path, log_dir: Path, extra=()):
         self.port = free_port()
         self.log_path = log_dir / "ui-server.log"
         self._log = open(self.log_path, "w")  # noqa: SIM115 - open for the life of the server
         env = {**os.environ, "PYTHONUNBUFFERED": "1"}
         cmd = [sys.executable, "-m", "heatsoak.core.app.cli", "ui", str(case), "--data-dir", str(data_dir),
-               "--server", "--port", str(self.port), "--host", "127.0.0.1"]
+               "--server", "--port", str(self.port), "--host", "127.0.0.1", *extra]
         self.proc = subprocess.Popen(cmd, stdout=self._log, stderr=subprocess.STDOUT, env=env)
         self.url = f"http://127.0.0.1:{self.port}/"
 
@@ -106,10 +106,11 @@ def launch_browser(playwright, width: int = 1600, height: int = 1000):
     )
 
 
-def serve(case: Path, data_dir: Path, log_dir: Path, forbidden=("traceback",)):
-    """Generator for a module fixture: a ready UI server on ``case``; after the module, it is stopped
-    and its log must hold none of the ``forbidden`` words (any case)."""
-    srv = UiServer(case, data_dir, log_dir)
+def serve(case: Path, data_dir: Path, log_dir: Path, forbidden=("traceback",), extra=()):
+    """Generator for a module fixture: a ready UI server on ``case`` (``extra``: more arguments of
+    ``heatsoak ui``); after the module, it is stopped and its log must hold none of the ``forbidden``
+    words (any case)."""
+    srv = UiServer(case, data_dir, log_dir, extra)
     try:
         srv.wait_ready()
         yield srv
@@ -131,6 +132,36 @@ def browse(server):
         page.wait_for_function("() => trame.state.get('hs_me')", timeout=15_000)  # the tab owns the workspace
         yield page
         browser.close()
+
+
+#: Most seconds between a press and the server's answer reaching the page while jobs work (the
+#: issue's bound). The browser's own redraw comes on top: 0.2-0.7 s on the shared test machine.
+#: HEATSOAK_UI_ANSWER_S sets another bound on a machine loaded far beyond its cores.
+RESPONSE_S = float(os.environ.get("HEATSOAK_UI_ANSWER_S", "1.0"))
+
+
+def state(page, key: str):
+    """The value of ``key`` in the page's copy of the server state."""
+    return page.evaluate(f"trame.state.get('{key}')")
+
+
+def timed(action, done, what: str) -> float:
+    """Seconds from ``action()`` until ``done()`` holds."""
+    start = time.monotonic()
+    action()
+    wait_for(done, 15, interval=0.02, what=what)
+    return time.monotonic() - start
+
+
+def timed_change(page, key: str, action) -> float:
+    """Seconds from ``action()`` until the page's ``key`` changes."""
+    before = state(page, key)
+    return timed(action, lambda: state(page, key) != before, f"{key} to change")
+
+
+def median_of(n: int, measure) -> float:
+    """Median of ``measure(i)`` for i = 0 .. n-1 (one slow moment of a shared machine is not the UI)."""
+    return sorted(measure(i) for i in range(n))[n // 2]
 
 
 def wait_for(predicate, timeout: float = 30.0, interval: float = 0.2, what: str = "condition"):
