@@ -37,8 +37,9 @@ MAX_MOVIE_FRAMES = 60
 MAX_PROBE_CSV_BYTES = 64_000_000
 #: Folder of the work folder where export jobs write their files.
 EXPORTS = "exports"
-#: Tooltip of the export job's cancel button, per phase.
-CANCEL_HINT = {"rendering": "cancel (keeps the frames made so far)", "packing": "cancel (no zip is kept)"}
+#: Tooltip of the export job's cancel button, per job.
+CANCEL_HINT = {"an animation": "cancel (keeps the frames made so far)", "a results zip": "cancel (no zip is kept)",
+               "a picture": "cancel"}
 
 
 def register(panel) -> None:
@@ -154,7 +155,7 @@ def _ended(panel, job, done) -> None:
 def show_export(panel, job) -> None:
     panel.state.hs_export_job = {"id": job.id, "text": jobs.status_text(job),
                                  "percent": 100.0 * jobs.overall_fraction(job),
-                                 "hint": CANCEL_HINT.get(job.phase, "cancel")}
+                                 "hint": CANCEL_HINT.get(panel.export_what, "cancel")}
 
 
 def ready(panel, data: bytes, name: str) -> None:

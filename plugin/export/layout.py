@@ -3,13 +3,15 @@ hook that saves its file when done."""
 
 from __future__ import annotations
 
+from heatsoak.plugin.session.layout import WATCHING
 from trame.widgets import client, html
 from trame.widgets import vuetify3 as v3
 
-#: Client code run when a job's file is ready: fetch it once and let the browser save it (a big file from its
-#: one-time address, so the browser streams it to disk).
-SAVE_READY_JS = ("$event.url ? Object.assign(utils.get('document').createElement('a'),"
-                 " {href: $event.url, download: $event.name}).click()"
+#: Client code run when a job's file is ready: fetch it once and let the browser save it. A big file comes
+#: from its one-time address (the browser streams it to disk), taken by the editing tab only: a watching
+#: tab gets the same event.
+SAVE_READY_JS = (f"$event.url ? (!({WATCHING}) && Object.assign(utils.get('document').createElement('a'),"
+                 " {href: $event.url, download: $event.name}).click())"
                  " : trigger('hs_take_download').then(d => d != null && utils.download($event.name, d, $event.mime))")
 
 
