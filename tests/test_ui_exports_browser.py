@@ -107,13 +107,13 @@ def test_a_cancelled_zip_keeps_no_file_and_says_so(page, work):
     assert list((work / "exports").iterdir()) == []
 
 
-def test_the_picture_is_rendered_in_a_worker_and_saved(page, tmp_path):
+def test_the_picture_is_rendered_in_a_worker_and_saved(page, shots):
     import imageio.v3 as iio
 
     with page.expect_download(timeout=30_000) as dl:
         page.click("#hs-export-png")
         wait_for(lambda: job_text(page).startswith(("rendering", "encoding", "starting")), 10, interval=0.02,
                  what="the picture job's line")
-    dl.value.save_as(tmp_path / "view.png")
-    image = iio.imread(tmp_path / "view.png")
+    dl.value.save_as(shots / "exports-2-picture.png")
+    image = iio.imread(shots / "exports-2-picture.png")
     assert image.shape[0] > 100 and image[..., :3].std() > 5.0  # a picture, not a blank

@@ -100,10 +100,7 @@ def register(panel) -> None:
         run = view_run(panel, "the picture")
         if run is None:
             return None
-        last = len(run.series) - 1 if run.series is not None else 0
-        frame = min(max(int(state.hs_frame or 0), 0), max(last, 0))
-        start_export(panel, "a picture", movie_in_worker, movie_spec(panel, run, "png", picks=[frame]),
-                     done=movie_done)
+        start_export(panel, "a picture", movie_in_worker, picture_spec(panel, run), done=movie_done)
         return None
 
     @server.trigger("hs_export_movie")
@@ -245,6 +242,19 @@ def movie_spec(panel, run, fmt: str = "gif", picks=None) -> MovieSpec:
                      label=label, camera=[tuple(v) for v in plotter.camera_position],
                      window_size=tuple(plotter.window_size), background=plotter.background_color.hex_rgb,
                      fps=max(1, int(state.hs_speed or 5)), fmt=fmt)
+
+
+def picture_spec(panel, run) -> MovieSpec:
+    """The view as it is, as a one-frame job: its surface with the colours it shows now (a frame, a
+    difference or a what-if estimate), its colour range and caption."""
+    state = panel.state
+    last = len(run.series) - 1 if run.series is not None else 0
+    frame = min(max(int(state.hs_frame or 0), 0), max(last, 0))
+    spec = movie_spec(panel, run, "png", picks=[frame])
+    spec.clim = tuple(state.hs_range) if state.hs_range else spec.clim
+    caption = getattr(panel.scene, "time_text", None)
+    spec.as_shown = caption.GetText(2) if caption is not None else spec.label
+    return spec
 
 
 def _even(n: int, most: int):

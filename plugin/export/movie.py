@@ -41,6 +41,9 @@ class MovieSpec:
         Fixed colour range [degC or K]; None: each frame's own range.
     camera : list
         pyvista camera position (position, focal point, view up).
+    as_shown : str or None
+        A picture of the view as it is: the surface's own scalars ``T`` and this text, not frame
+        ``picks[0]`` read from the files (the view may show a what-if estimate).
     """
 
     surface: object
@@ -57,6 +60,7 @@ class MovieSpec:
     background: str
     fps: int
     fmt: str
+    as_shown: str | None = None
 
 
 def encode_movie(images, fps: int, fmt: str = "gif") -> bytes:
@@ -86,11 +90,19 @@ def _plotter(spec: MovieSpec):
     plotter = pv.Plotter(off_screen=True, window_size=list(spec.window_size))
     plotter.set_background(spec.background)
     surface = spec.surface.copy()
-    surface.point_data["T"] = np.zeros(surface.n_points)
+    if spec.as_shown is None:
+        surface.point_data["T"] = np.zeros(surface.n_points)
     actor = plotter.add_mesh(surface, **result_style(spec.cmap, spec.clim or (0.0, 1.0), spec.title))
     text = plotter.add_text("", **time_text_style())
     plotter.camera_position = spec.camera
     return plotter, surface, actor, text
+
+
+def _set_frame(spec: MovieSpec, series, other, k: int, values) -> str:
+    """Write frame ``k`` (or its difference to ``other``) into the surface's ``values``; its caption."""
+    nodal = series.frame(k) if other is None else series.difference(other, k)
+    values[:] = nodal[spec.nodes]
+    return f"{spec.label}   t = {float(series.times[k]):g} s"
 
 
 def movie_in_worker(report, spec: MovieSpec) -> dict:
@@ -113,12 +125,10 @@ def movie_in_worker(report, spec: MovieSpec) -> dict:
     for i, k in enumerate(spec.picks):
         if report.stopped():
             break
-        nodal = series.frame(k) if other is None else series.difference(other, k)
-        values[:] = nodal[spec.nodes]
+        text.SetText(2, spec.as_shown or _set_frame(spec, series, other, k, values))
         surface.GetPointData().GetArray("T").Modified()
         if spec.clim is None:
             actor.mapper.scalar_range = (float(values.min()), float(max(values.max(), values.min() + 1e-6)))
-        text.SetText(2, f"{spec.label}   t = {float(series.times[k]):g} s")
         plotter.render()
         images.append(plotter.screenshot(return_img=True))
         if i == 0:
