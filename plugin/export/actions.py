@@ -20,7 +20,7 @@ from heatsoak.core.case.paths import CasePaths
 from heatsoak.core.errors import InputError
 from heatsoak.plugin.export import handout
 from heatsoak.plugin.export.movie import MovieSpec, encode_movie, movie_in_worker
-from heatsoak.plugin.export.packing import pack_folder
+from heatsoak.plugin.export.packing import PART_SUFFIX, pack_folder
 from heatsoak.plugin.jobs import actions as jobs
 from heatsoak.plugin.load import guard
 from heatsoak.plugin.scene import DIFFERENCE_CMAP, DIFFERENCE_LABEL, TEMPERATURE_CMAP, UNIT_LABEL
@@ -48,6 +48,8 @@ def register(panel) -> None:
     state.update({"hs_export_error": "", "hs_movie_format": "gif", "hs_export_job": None})
     panel.export_job, panel.export_what, panel.download = None, "", None
     handout.register(panel)
+    for part in (panel.work_dir / EXPORTS).glob(f"*{PART_SUFFIX}"):  # zips a stopped UI left half made
+        part.unlink(missing_ok=True)
 
     def attach(data: bytes):
         return server.protocol.addAttachment(data)
