@@ -72,6 +72,23 @@ def result_style(cmap: str, clim, title: str) -> dict:
                                  "label_font_size": 12})
 
 
+def add_probes(plotter, points, names, size: float) -> tuple:
+    """Spheres of radius ``size`` [m] at probe ``points`` (n, 3) [m], labelled by ``names``.
+
+    Returns
+    -------
+    (spheres actor, labels actor)
+    """
+    cloud = pv.PolyData(np.asarray(points, dtype=float))
+    glyphs = cloud.glyph(geom=pv.Sphere(radius=size), scale=False, orient=False)
+    spheres = plotter.add_mesh(glyphs, color="#d0312d", name="probes", pickable=False)
+    labels = plotter.add_point_labels(
+        cloud, list(names), font_size=12, point_size=1, shape_opacity=0.6, name="probe_labels",
+        always_visible=True, text_color="#1f2421", shape_color="#ffffff", pickable=False,
+    )
+    return spheres, labels
+
+
 def time_text_style() -> dict:
     """``add_text`` keywords of the line naming the run and time."""
     return dict(position="upper_left", font_size=9, color="#2d3331", name="time")
@@ -94,6 +111,7 @@ class Scene:
         self.shown_nodes = None
         self._actors = {}
         self.selected_group = None
+        self.probes = ()  # (points (n, 3) [m], names, sphere radius [m]) of the marked probes
         self._picker = vtk.vtkCellPicker()
         self._picker.SetTolerance(0.0005)
 
@@ -172,16 +190,11 @@ class Scene:
         """Mark probe points with small spheres and labels (points in metres)."""
         self._remove("probes")
         self._remove("probe_labels")
+        self.probes = ()
         if len(points) == 0:
             return
-        size = 0.012 * self.surface.length
-        cloud = pv.PolyData(np.asarray(points, dtype=float))
-        glyphs = cloud.glyph(geom=pv.Sphere(radius=size), scale=False, orient=False)
-        self._actors["probes"] = self.plotter.add_mesh(glyphs, color="#d0312d", name="probes", pickable=False)
-        self._actors["probe_labels"] = self.plotter.add_point_labels(
-            cloud, list(names), font_size=12, point_size=1, shape_opacity=0.6, name="probe_labels",
-            always_visible=True, text_color="#1f2421", shape_color="#ffffff", pickable=False,
-        )
+        self.probes = (np.asarray(points, dtype=float), tuple(names), 0.012 * self.surface.length)
+        self._actors["probes"], self._actors["probe_labels"] = add_probes(self.plotter, *self.probes)
 
     # ---------------------------------------------------------------- results
     def show_field(self, clip=None, cmap=TEMPERATURE_CMAP, clim=(0.0, 1.0), title=UNIT_LABEL) -> None:

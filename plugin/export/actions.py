@@ -243,7 +243,7 @@ def movie_spec(panel, run, fmt: str = "gif", picks=None) -> MovieSpec:
                      cmap=DIFFERENCE_CMAP if diff else TEMPERATURE_CMAP, title=DIFFERENCE_LABEL if diff else UNIT_LABEL,
                      label=label, camera=[tuple(v) for v in plotter.camera_position],
                      window_size=tuple(plotter.window_size), background=plotter.background_color.hex_rgb,
-                     fps=max(1, int(state.hs_speed or 5)), fmt=fmt)
+                     fps=max(1, int(state.hs_speed or 5)), fmt=fmt, probes=panel.scene.probes)
 
 
 def picture_spec(panel, run) -> MovieSpec:

@@ -16,8 +16,8 @@ from pathlib import Path
 import imageio.v3 as iio
 import numpy as np
 from heatsoak.core.results.result_field import FieldSeries
-from heatsoak.plugin.pvtrame import pv
-from heatsoak.plugin.scene import result_style, time_text_style
+from heatsoak.plugin.pvtrame import new_plotter
+from heatsoak.plugin.scene import add_probes, result_style, time_text_style
 from vtk.util import numpy_support
 
 
@@ -44,6 +44,8 @@ class MovieSpec:
     as_shown : str or None
         A picture of the view as it is: the surface's own scalars ``T`` and this text, not frame
         ``picks[0]`` read from the files (the view may show a what-if estimate).
+    probes : tuple
+        ``(points (n, 3) [m], names, sphere radius [m])`` of the probes marked in the view, or ().
     """
 
     surface: object
@@ -61,6 +63,7 @@ class MovieSpec:
     fps: int
     fmt: str
     as_shown: str | None = None
+    probes: tuple = ()
 
 
 def encode_movie(images, fps: int, fmt: str = "gif") -> bytes:
@@ -87,13 +90,15 @@ def _mp4_ffmpeg(images, fps: int) -> bytes:
 
 
 def _plotter(spec: MovieSpec):
-    plotter = pv.Plotter(off_screen=True, window_size=list(spec.window_size))
-    plotter.set_background(spec.background)
+    plotter = new_plotter(spec.background)
+    plotter.window_size = list(spec.window_size)
     surface = spec.surface.copy()
     if spec.as_shown is None:
         surface.point_data["T"] = np.zeros(surface.n_points)
     actor = plotter.add_mesh(surface, **result_style(spec.cmap, spec.clim or (0.0, 1.0), spec.title))
     text = plotter.add_text("", **time_text_style())
+    if spec.probes:
+        add_probes(plotter, *spec.probes)
     plotter.camera_position = spec.camera
     return plotter, surface, actor, text
 
@@ -103,6 +108,34 @@ def _set_frame(spec: MovieSpec, series, other, k: int, values) -> str:
     nodal = series.frame(k) if other is None else series.difference(other, k)
     values[:] = nodal[spec.nodes]
     return f"{spec.label}   t = {float(series.times[k]):g} s"
+
+
+def frame_images(report, spec: MovieSpec):
+    """Render the picked frames off-screen, one after the other, until done or cancelled.
+
+    Yields
+    ------
+    (k, image) : frame index and its RGB picture, (h, w, 3) uint8 at ``spec.window_size``.
+    """
+    series = FieldSeries(spec.out_dir)
+    other = None if spec.diff_dir is None else FieldSeries(spec.diff_dir)
+    plotter, surface, actor, text = _plotter(spec)
+    values = numpy_support.vtk_to_numpy(surface.GetPointData().GetArray("T"))
+    try:
+        for k in spec.picks:
+            if report.stopped():
+                return
+            text.SetText(2, spec.as_shown or _set_frame(spec, series, other, k, values))
+            surface.GetPointData().GetArray("T").Modified()
+            if spec.clim is None:
+                actor.mapper.scalar_range = (float(values.min()), float(max(values.max(), values.min() + 1e-6)))
+            plotter.render()
+            yield k, plotter.screenshot(return_img=True)
+    finally:
+        plotter.close()
+        series.close()
+        if other is not None:
+            other.close()
 
 
 def movie_in_worker(report, spec: MovieSpec) -> dict:
@@ -116,32 +149,17 @@ def movie_in_worker(report, spec: MovieSpec) -> dict:
     dict
         ``data`` (bytes of the file), ``frames`` (how many), ``fmt``.
     """
-    series = FieldSeries(spec.out_dir)
-    other = None if spec.diff_dir is None else FieldSeries(spec.diff_dir)
-    plotter, surface, actor, text = _plotter(spec)
-    values = numpy_support.vtk_to_numpy(surface.GetPointData().GetArray("T"))
     report.phase("rendering", len(spec.picks))
     images, start, encode_each = [], time.perf_counter(), 0.0
-    for i, k in enumerate(spec.picks):
-        if report.stopped():
-            break
-        text.SetText(2, spec.as_shown or _set_frame(spec, series, other, k, values))
-        surface.GetPointData().GetArray("T").Modified()
-        if spec.clim is None:
-            actor.mapper.scalar_range = (float(values.min()), float(max(values.max(), values.min() + 1e-6)))
-        plotter.render()
-        images.append(plotter.screenshot(return_img=True))
-        if i == 0:
+    for _, image in frame_images(report, spec):
+        images.append(image)
+        if len(images) == 1:
             t0 = time.perf_counter()
             encode_movie(images[:1], spec.fps, spec.fmt)
             encode_each = time.perf_counter() - t0
         render_each = (time.perf_counter() - start - encode_each) / len(images)
         left = render_each * (len(spec.picks) - len(images)) + encode_each * len(spec.picks)
         report.advance(len(images), len(spec.picks), eta_s=left)
-    plotter.close()
-    series.close()
-    if other is not None:
-        other.close()
     report.phase("encoding")
     report.advance(0, 0, eta_s=encode_each * len(images), force=True)
     data = encode_movie(images, spec.fps, spec.fmt) if images else b""

@@ -11,7 +11,7 @@ import time
 
 import numpy as np
 from heatsoak.plugin.jobs.soon import soon
-from heatsoak.plugin.results import curves
+from heatsoak.plugin.results import curves, pictures
 from heatsoak.plugin.runs.here import is_here
 from heatsoak.plugin.scene import DIFFERENCE_CMAP, DIFFERENCE_LABEL, TEMPERATURE_CMAP, UNIT_LABEL
 
@@ -27,8 +27,9 @@ def register(panel) -> None:
         "hs_runs": [], "hs_shown_run": None, "hs_diff_run": None, "hs_compare": [], "hs_frame": 0,
         "hs_n_frames": 0, "hs_playing": False, "hs_loop": True, "hs_speed": 5, "hs_speeds": list(SPEEDS),
         "hs_range_mode": "fixed", "hs_range": [0.0, 1.0], "hs_clip": False, "hs_clip_axis": "x",
-        "hs_clip_pos": 50, "hs_frame_time": "", "hs_view": "setup", "hs_runs_here": 0,
+        "hs_clip_pos": 50, "hs_frame_time": "", "hs_view": "setup", "hs_runs_here": 0, "hs_picture": "",
     })
+    panel.pictures = None
     curves.register(panel)
 
     @state.change("hs_shown_run", "hs_diff_run", "hs_clip", "hs_clip_axis", "hs_clip_pos")
@@ -72,8 +73,18 @@ def register_player(panel) -> None:
             return
         if state.hs_frame >= state.hs_n_frames - 1:
             state.hs_frame = 0
+        run, diff = shown_runs(panel)
+        if run is not None:
+            pictures.prepare(panel, run, diff, first=int(state.hs_frame))
         state.hs_playing = True
         asyncio.ensure_future(play_loop(panel))
+
+    @state.change("hs_playing")
+    def on_playing(hs_playing, **_):
+        """Paused: the live view takes over from the prepared pictures at the frame reached."""
+        if not hs_playing and state.hs_picture:
+            state.hs_picture = ""
+            draw_frame(panel, int(state.hs_frame or 0))
 
     @panel.server.trigger("hs_pause")
     @ctrl.set("hs_pause")
@@ -121,6 +132,7 @@ def mesh_opened(panel) -> None:
     """Another mesh (or the same file again) is open: nothing of the previous one stays on screen.
     Runs on this mesh (by content) stay viewable; the newest and its comparison are ticked."""
     state = panel.state
+    pictures.drop(panel)
     state.update({"hs_playing": False, "hs_view": "setup", "hs_frame": 0, "hs_n_frames": 0, "hs_frame_time": "",
                   "hs_diff_run": None, "hs_export_error": ""})
     if not state.hs_running:  # a run still going keeps its progress line; the last one's words go
@@ -181,14 +193,22 @@ def frame_values(run, diff, k: int) -> np.ndarray:
     return run.series.frame(k) if diff is None else run.series.difference(diff.series, k)
 
 
-def draw_frame(panel, k: int) -> None:
-    """Overwrite the shown scalars with frame ``k`` and push the picture."""
+def shown_runs(panel) -> tuple:
+    """The run shown in 3D and the run subtracted from it (None when plain), both on this mesh."""
     state, run = panel.state, panel.runs.get(panel.state.hs_shown_run)
-    if run is None or run.series is None or not 0 <= k < len(run.series) or state.hs_view != "results" \
-            or not is_here(panel, run):
-        return
+    if run is None or not is_here(panel, run):
+        return None, None
     diff = panel.runs.get(state.hs_diff_run) if state.hs_diff_run != run.id else None
-    diff = diff if is_here(panel, diff) else None
+    return run, (diff if is_here(panel, diff) else None)
+
+
+def draw_frame(panel, k: int) -> None:
+    """Overwrite the shown scalars with frame ``k`` and push the picture: the prepared one while
+    playing when it is ready, else a render of the view."""
+    state = panel.state
+    run, diff = shown_runs(panel)
+    if run is None or run.series is None or not 0 <= k < len(run.series) or state.hs_view != "results":
+        return
     values = frame_values(run, diff, k)
     panel.scene.set_values(values)
     panel._frame_range = [float(values.min()), float(values.max())]
@@ -197,6 +217,11 @@ def draw_frame(panel, k: int) -> None:
     state.hs_frame_time = label
     panel.scene.set_time_text(f"Run {run.id}" + (f" minus run {diff.id}" if diff else "") + f"   t = {t:g} s")
     apply_range(panel)
+    pics = pictures.current(panel, run.id, None if diff is None else diff.id) if state.hs_playing else None
+    if pics is not None and pics.ready(k):
+        state.hs_picture = pics.data_url(k)  # no render: the live view is drawn again on pause
+        return
+    state.hs_picture = ""
     soon(panel, type(panel).update_view)  # the frame's time answers first; the picture follows, and
     # frames that come faster than the view draws update the values it draws next (never queued)
 
@@ -232,4 +257,16 @@ async def play_loop(panel) -> None:
                     state.hs_playing = False
                     break
                 nxt = 0
+            if waiting_for_picture(panel, nxt):
+                continue
             state.hs_frame = nxt
+
+
+def waiting_for_picture(panel, k: int) -> bool:
+    """True (and the player says so) while frame ``k``'s picture is still being prepared."""
+    run, diff = shown_runs(panel)
+    pics = None if run is None else pictures.current(panel, run.id, None if diff is None else diff.id)
+    if pics is None or not pics.preparing or pics.ready(k):
+        return False
+    panel.state.hs_frame_time = f"preparing pictures: {pics.job.done} of {len(run.series)}"
+    return True
