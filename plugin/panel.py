@@ -117,8 +117,8 @@ class HeatPanel:
         """The 3D view of the plotter, wired for clicks (call inside a layout whose box is
         ``position: relative``); a watching tab sees it under a cover that takes no clicks to the view."""
         html.Div(v_if=session_layout.WATCHING, classes="hs-watch-cover", id="hs-watch-cover")
-        html.Img(v_if="hs_playing && hs_picture", src=("hs_picture",), classes="hs-picture", id="hs-picture",
-                 alt="prepared frame")  # over the view while playing; clicks pass through to it
+        html.Img(v_if="hs_picture", src=("hs_picture",), classes="hs-picture", id="hs-picture",
+                 alt="prepared frame")  # over the view while playing; clicks pass through
         view = view_for(self.plotter, self.view_mode, interactive_ratio=1, still_quality=80, interactive_quality=60,
                         **self.view_events, **kwargs)
         self.attach_view(view)

@@ -83,7 +83,6 @@ def register_player(panel) -> None:
     def on_playing(hs_playing, **_):
         """Paused: the live view takes over from the prepared pictures at the frame reached."""
         if not hs_playing and state.hs_picture:
-            state.hs_picture = ""
             draw_frame(panel, int(state.hs_frame or 0))
 
     @panel.server.trigger("hs_pause")
@@ -133,7 +132,7 @@ def mesh_opened(panel) -> None:
     Runs on this mesh (by content) stay viewable; the newest and its comparison are ticked."""
     state = panel.state
     pictures.drop(panel)
-    state.update({"hs_playing": False, "hs_view": "setup", "hs_frame": 0, "hs_n_frames": 0, "hs_frame_time": "",
+    state.update({"hs_playing": False, "hs_view": "setup", "hs_frame": 0, "hs_n_frames": 0, "hs_frame_time": "", "hs_picture": "",
                   "hs_diff_run": None, "hs_export_error": ""})
     if not state.hs_running:  # a run still going keeps its progress line; the last one's words go
         state.update({"hs_progress": 0.0, "hs_progress_text": "", "hs_run_error": "", "hs_solver_reason": ""})
@@ -221,9 +220,33 @@ def draw_frame(panel, k: int) -> None:
     if pics is not None and pics.ready(k):
         state.hs_picture = pics.data_url(k)  # no render: the live view is drawn again on pause
         return
+    if state.hs_picture and not state.hs_playing:
+        soon(panel, hand_over)
+        return
     state.hs_picture = ""
     soon(panel, type(panel).update_view)  # the frame's time answers first; the picture follows, and
     # frames that come faster than the view draws update the values it draws next (never queued)
+
+
+#: Seconds a prepared picture stays over the view after the live view was drawn on pause: the view's
+#: image stream sends a picture still being encoded again half a second later (trame-vtk's image
+#: delivery), and until then the browser would show an older frame.
+HAND_OVER_S = 0.7
+
+
+def hand_over(panel) -> None:
+    """Paused on a prepared picture: the live view is drawn first, then the picture over it goes."""
+    panel.update_view()
+
+    def uncover():
+        with panel.state:
+            if not panel.state.hs_playing:
+                panel.state.hs_picture = ""
+
+    try:
+        asyncio.get_running_loop().call_later(HAND_OVER_S, uncover)
+    except RuntimeError:  # no event loop (scripts, tests): at once
+        uncover()
 
 
 def apply_range(panel) -> None:
