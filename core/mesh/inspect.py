@@ -29,9 +29,9 @@ def shape_ratio(points: np.ndarray, cells: np.ndarray, volumes: np.ndarray | Non
     -------
     (n_cells,) array in [0, 1]
     """
-    p = points[cells[:, :4]]
-    edges = p[:, TET_EDGES[:, 1]] - p[:, TET_EDGES[:, 0]]
-    l_rms = np.sqrt(np.einsum("eki,eki->e", edges, edges) / 6.0)
+    corners = [points[cells[:, j]] for j in range(4)]  # one gather per vertex, no (n, 6, 3) temporaries
+    l_sq = sum(np.einsum("ei,ei->e", corners[j] - corners[i], corners[j] - corners[i]) for i, j in TET_EDGES)
+    l_rms = np.sqrt(l_sq / 6.0)
     vol = np.abs(signed_volumes(points, cells)) if volumes is None else volumes
     return 6.0 * np.sqrt(2.0) * vol / l_rms**3
 

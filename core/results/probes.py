@@ -92,10 +92,11 @@ def _cell_tree(mesh: Mesh):
     """KD-tree of the cell centroids and the largest centroid-to-vertex distance [m] of ``mesh``."""
     found = _TREES.get(mesh)
     if found is None:
-        vertices = mesh.points[mesh.cells[:, :4]]
-        centroids = vertices.mean(axis=1)
-        radius = float(np.sqrt(((vertices - centroids[:, None]) ** 2).sum(axis=2).max()))
-        found = _TREES[mesh] = (cKDTree(centroids), radius)
+        corners = [mesh.points[mesh.cells[:, j]] for j in range(4)]
+        centroids = (corners[0] + corners[1] + corners[2] + corners[3]) / 4.0
+        radius = float(np.sqrt(max(np.einsum("ij,ij->i", c - centroids, c - centroids).max() for c in corners)))
+        # an unbalanced tree builds about 3x faster on a million cells; a query of a few probes does not notice
+        found = _TREES[mesh] = (cKDTree(centroids, balanced_tree=False, compact_nodes=False), radius)
     return found
 
 
