@@ -13,6 +13,7 @@ import contextlib
 import io
 import os
 import tempfile
+from concurrent.futures import ThreadPoolExecutor
 from pathlib import Path
 
 import numpy as np
@@ -162,9 +163,11 @@ def read_raw(path: Path):
         try:
             if fmt == "abaqus":
                 return _read_inp(path)
-            raw, notes = _meshio_read(fmt, str(path))
-            if fmt == "gmsh":
-                _check_msh_nodes(path)
+            with ThreadPoolExecutor(1) as pool:  # numpy parses the node check while meshio reads the file
+                check = pool.submit(_check_msh_nodes, path) if fmt == "gmsh" else None
+                raw, notes = _meshio_read(fmt, str(path))
+                if check is not None:
+                    check.result()
             if fmt == "exodus":
                 raw, more = name_blocks(raw, path)
                 notes = (*notes, *more)

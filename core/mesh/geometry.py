@@ -8,6 +8,8 @@ assembly integrates curved cells and faces (:func:`curved_cells`,
 
 from __future__ import annotations
 
+import weakref
+
 import numpy as np
 from heatsoak.core.mesh.mesh import TET_EDGES
 from heatsoak.core.mesh.shape import TRI_EDGES, tet_basis, tet_quadrature, tri_basis, tri_quadrature
@@ -134,6 +136,21 @@ def _jacobians(points: np.ndarray, cells: np.ndarray, dref: np.ndarray) -> np.nd
     x = np.swapaxes(points[cells], 1, 2)  # (ne, 3, nb)
     jac = x @ np.swapaxes(dref, 0, 1).reshape(nb, nq * 3)  # (ne, 3, nq * 3)
     return np.swapaxes(jac.reshape(len(cells), 3, nq, 3), 1, 2)
+
+
+#: Cell volumes of each P1 mesh read, kept while the mesh lives (its reader computed them already).
+_VOLUMES: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
+
+
+def remember_volumes(mesh, volumes: np.ndarray) -> None:
+    """Keep the cell volumes (n_cells,) [m^3] of a mesh just built, for :func:`mesh_cell_volumes`."""
+    _VOLUMES[mesh] = volumes
+
+
+def mesh_cell_volumes(mesh) -> np.ndarray:
+    """Cell volumes (n_cells,) [m^3] of ``mesh``: the ones its reader kept, or computed."""
+    found = _VOLUMES.get(mesh)
+    return cell_volumes(mesh.points, mesh.cells) if found is None else found
 
 
 def cell_volumes(points: np.ndarray, cells: np.ndarray) -> np.ndarray:

@@ -9,7 +9,7 @@ from __future__ import annotations
 import json
 
 import numpy as np
-from heatsoak.core.mesh.geometry import cell_volumes, face_areas
+from heatsoak.core.mesh.geometry import face_areas, mesh_cell_volumes
 from heatsoak.core.mesh.mesh import TET_EDGES, Mesh
 from heatsoak.core.mesh.topology import signed_volumes
 
@@ -47,7 +47,7 @@ def summarize(mesh: Mesh) -> dict:
     {measure, min, median, max, poor, poor_below}, split (cells of other shapes
     split into tetrahedra, "648 hexahedra split into 3240 tetrahedra"), warnings.
     """
-    vol = cell_volumes(mesh.points, mesh.cells)
+    vol = mesh_cell_volumes(mesh)
     area = face_areas(mesh.points, mesh.faces)
     n_reg, n_grp = len(mesh.region_names), len(mesh.group_names)
     reg_count = np.bincount(mesh.cell_region, minlength=n_reg)

@@ -17,7 +17,7 @@ import numpy as np
 from heatsoak.core.errors import InputError, MeshError
 from heatsoak.core.mesh.bounds import check_coordinates
 from heatsoak.core.mesh.files import read_raw
-from heatsoak.core.mesh.geometry import curved_cells, sampled_jacobians
+from heatsoak.core.mesh.geometry import curved_cells, remember_volumes, sampled_jacobians
 from heatsoak.core.mesh.mesh import TET_EDGES, Mesh
 from heatsoak.core.mesh.surface import (
     REMAINDER,
@@ -157,7 +157,7 @@ def build_mesh(
     points, cells, tagged_faces = _drop_unused(points, cells, tagged_faces, notes)
     check_coordinates(points, where)
     _check_solid(points, where)
-    cells = _fix_volumes(points, cells, original, where, notes)
+    cells, volumes = _fix_volumes(points, cells, original, where, notes)
     if cells.shape[1] == 10:
         _check_mid_nodes(points, cells, original, where)
     used, cell_region = np.unique(cell_region, return_inverse=True)
@@ -175,7 +175,7 @@ def build_mesh(
     notes += grouping.notes
     notes += _unmerged(points, faces)
     notes += _bodies(cells, len(points))
-    return Mesh(
+    mesh = Mesh(
         points=points,
         cells=cells,
         cell_region=cell_region.ravel().astype(np.int64),
@@ -190,6 +190,9 @@ def build_mesh(
         unit=unit,
         splits=tuple(splits),
     )
+    if cells.shape[1] == 4:  # straight cells: the vertex tetrahedra's volumes are the cells' own
+        remember_volumes(mesh, volumes)
+    return mesh
 
 
 def _surface_groups(points, faces, face_keys, interior_keys, tagged_faces, feature_angle):
@@ -300,7 +303,8 @@ def _unmerged(points, faces):
 
 
 def _fix_volumes(points, cells, original, where, notes):
-    """Raise on zero-volume elements, report tiny ones, reorient inverted ones."""
+    """Raise on zero-volume elements, report tiny ones, reorient inverted ones; the cells and the
+    volumes (n_cells,) of their vertex tetrahedra."""
     vol = signed_volumes(points, cells)
     size = np.abs(vol)
     mean = size.mean()
@@ -323,7 +327,7 @@ def _fix_volumes(points, cells, original, where, notes):
     if negative.any():
         notes.append(f"reoriented {negative.sum()} inverted elements (negative volume)")
         cells = reorient(cells, negative)
-    return cells
+    return cells, size
 
 
 def _check_mid_nodes(points, cells, original, where):

@@ -100,6 +100,12 @@ def _cell_tree(mesh: Mesh):
     return found
 
 
+def prepare_search(mesh: Mesh) -> None:
+    """Build the probe search tree of ``mesh`` now (it is kept while the mesh lives): a caller
+    with a core to spare builds it while doing other work."""
+    _cell_tree(mesh)
+
+
 def locate(mesh: Mesh, points, tol: float = TOL):
     """Find the cell containing each point.
 

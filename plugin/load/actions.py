@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import os
 import re
+from concurrent.futures import ThreadPoolExecutor
 from pathlib import Path
 
 from heatsoak.core.case.casefile import read_case_toml
@@ -12,6 +13,7 @@ from heatsoak.core.errors import CaseError, InputError
 from heatsoak.core.mesh.inspect import summarize
 from heatsoak.core.mesh.read import UNITS, read_mesh, unit_scale
 from heatsoak.core.problem.schedule import table_from_text
+from heatsoak.core.results.probes import prepare_search
 from heatsoak.plugin.load import guard, listing
 from heatsoak.plugin.results import actions as results_actions
 from heatsoak.plugin.setup import actions as setup_actions
@@ -73,7 +75,8 @@ def register_choices(panel) -> None:
         """The user says which length unit the file is in: read it again."""
         previous = state.hs_unit, state.hs_unit_from
         state.hs_unit, state.hs_unit_from = unit, "as chosen"
-        if panel.mesh_path is not None and not open_mesh(panel, panel.mesh_path, keep_forms=True):
+        probes = bool(state.hs_probes)
+        if panel.mesh_path is not None and not open_mesh(panel, panel.mesh_path, keep_forms=True, search_probes=probes):
             state.hs_unit, state.hs_unit_from = previous  # the mesh still open was read in this one
 
     @ctrl.set("hs_set_angle")
@@ -107,7 +110,7 @@ def register_choices(panel) -> None:
 def reload_mesh(panel) -> None:
     """Read the mesh again with the unit and feature angle now set."""
     if panel.mesh_path is not None:
-        open_mesh(panel, panel.mesh_path, keep_forms=True)
+        open_mesh(panel, panel.mesh_path, keep_forms=True, search_probes=bool(panel.state.hs_probes))
 
 
 #: What the facts table says of the unit of a mesh file opened on its own.
@@ -126,8 +129,9 @@ def open_bare_mesh(panel, path: Path) -> bool:
     return True
 
 
-def open_mesh(panel, path: Path, keep_forms: bool = False) -> bool:
-    """Read ``path`` with the unit and feature angle in the state and show it."""
+def open_mesh(panel, path: Path, keep_forms: bool = False, search_probes: bool = False) -> bool:
+    """Read ``path`` with the unit and feature angle in the state and show it; ``search_probes``:
+    the case places probes, so their search tree is built beside the mesh facts."""
     state = panel.state
     state.hs_mesh_error = ""
     paths = case_paths(panel, path)
@@ -145,7 +149,11 @@ def open_mesh(panel, path: Path, keep_forms: bool = False) -> bool:
     panel.mesh, panel.mesh_path, panel.root = mesh, Path(path), paths.root
     panel.case_dir = Path(path).parent  # the forms' case names the mesh relative to it
     state.hs_mesh_name = Path(path).name
-    state.hs_facts = summarize(mesh)
+    with ThreadPoolExecutor(1) as pool:  # numpy releases the GIL: the facts and the probe search overlap
+        search = pool.submit(prepare_search, mesh) if search_probes else None
+        state.hs_facts = summarize(mesh)
+        if search is not None:
+            search.result()
     state.hs_unit_m = UNITS[state.hs_unit]
     panel.scene.show_mesh(mesh)
     setup_actions.mesh_changed(panel, keep_forms=keep_forms)
@@ -204,7 +212,7 @@ def open_case(panel, path: Path) -> bool:
     previous = state.hs_unit, state.hs_feature_angle, state.hs_unit_from
     state.hs_unit, state.hs_feature_angle = str(mesh_sec.get("unit", "m")), float(angle)
     state.hs_unit_from = f"from {name}" if "unit" in mesh_sec else f"{name} names none: metres"
-    if not open_mesh(panel, mesh_path):
+    if not open_mesh(panel, mesh_path, search_probes=bool(data.get("probe"))):
         state.hs_unit, state.hs_feature_angle, state.hs_unit_from = previous  # the open mesh was read with these
         state.hs_mesh_error = f"{name}: {state.hs_mesh_error}"
         return False
