@@ -119,7 +119,7 @@ class HeatPanel:
         html.Div(v_if=session_layout.WATCHING, classes="hs-watch-cover", id="hs-watch-cover")
         html.Img(v_if="hs_picture", src=("hs_picture",), classes="hs-picture", id="hs-picture",
                  alt="prepared frame")  # over the view while playing; clicks pass through
-        view = view_for(self.plotter, self.view_mode, interactive_ratio=1, still_quality=80, interactive_quality=60,
+        view = view_for(self.plotter, self.view_mode, interactive_ratio=0.5, still_quality=80, interactive_quality=60,
                         **self.view_events, **kwargs)
         self.attach_view(view)
         return view
