@@ -118,6 +118,15 @@ def _meshio_read(fmt: str, name: str):
     return raw, tuple(f"reader: {line.strip()}" for line in out.getvalue().splitlines() if line.strip())
 
 
+def _read_msh(path: Path):
+    """meshio's MSH reader, the node-number check parsing the file beside it (numpy releases the GIL)."""
+    with ThreadPoolExecutor(1) as pool:
+        check = pool.submit(_check_msh_nodes, path)
+        raw = _meshio_read("gmsh", str(path))
+        check.result()
+    return raw
+
+
 def _read_inp(path: Path):
     """An .inp deck through the tolerant pass, then meshio."""
     text, notes = normalised_deck(path)
@@ -163,11 +172,7 @@ def read_raw(path: Path):
         try:
             if fmt == "abaqus":
                 return _read_inp(path)
-            with ThreadPoolExecutor(1) as pool:  # numpy parses the node check while meshio reads the file
-                check = pool.submit(_check_msh_nodes, path) if fmt == "gmsh" else None
-                raw, notes = _meshio_read(fmt, str(path))
-                if check is not None:
-                    check.result()
+            raw, notes = _read_msh(path) if fmt == "gmsh" else _meshio_read(fmt, str(path))
             if fmt == "exodus":
                 raw, more = name_blocks(raw, path)
                 notes = (*notes, *more)

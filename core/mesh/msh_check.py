@@ -27,21 +27,19 @@ def _node_counts() -> np.ndarray:
     return table
 
 
-def _section(text: bytes, name: bytes) -> list:
-    start = text.find(b"$" + name)
-    end = text.find(b"$End" + name, start)
-    if start < 0 or end < 0:
-        return []
-    return text[start:end].splitlines()[1:]
-
-
 def _section_body(text: bytes, name: bytes) -> bytes:
     """The bytes of section ``name`` after its opening line, up to its closing one (b"" if absent)."""
     start = text.find(b"$" + name)
     end = text.find(b"$End" + name, start)
     if start < 0 or end < 0:
         return b""
-    return text[text.find(b"\n", start) + 1:end]
+    first = text.find(b"\n", start, end)
+    return b"" if first < 0 else text[first + 1:end]
+
+
+def _section(text: bytes, name: bytes) -> list:
+    """The lines of section ``name`` between its opening and closing lines."""
+    return _section_body(text, name).splitlines()
 
 
 def _bad_v2(lines: list, counts: np.ndarray):

@@ -166,8 +166,7 @@ def build_field(panel) -> None:
         lo, hi = np.array(panel.mesh.points.min(axis=0)), np.array(panel.mesh.points.max(axis=0))
         origin = lo + (hi - lo) * float(state.hs_clip_pos) / 100.0
         clip = (AXES[state.hs_clip_axis], tuple(origin))
-    diff = panel.runs.get(state.hs_diff_run) if state.hs_diff_run != run.id else None
-    diff = diff if is_here(panel, diff) else None
+    _, diff = shown_runs(panel)
     title = DIFFERENCE_LABEL if diff else UNIT_LABEL
     panel.scene.show_field(clip=clip, cmap=DIFFERENCE_CMAP if diff else TEMPERATURE_CMAP, title=title)
     state.hs_n_frames = len(run.series)

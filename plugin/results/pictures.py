@@ -101,10 +101,12 @@ def look_key(panel, run_id, diff_id) -> tuple:
     return (run_id, diff_id, clip, rng, camera, tuple(plotter.window_size), probes)
 
 
-def current(panel, run_id, diff_id):
-    """The prepared set for the look now shown, or None (none started, stale or failed)."""
+def current(panel, run_id, diff_id, key=None):
+    """The prepared set for the look now shown (``key``, by default :func:`look_key`), or None
+    (none started, stale or failed)."""
     pics = getattr(panel, "pictures", None)
-    if pics is None or pics.failed or pics.key != look_key(panel, run_id, diff_id):
+    key = look_key(panel, run_id, diff_id) if key is None else key
+    if pics is None or pics.failed or pics.key != key:
         return None
     return pics
 
@@ -114,8 +116,9 @@ def prepare(panel, run, diff, first: int = 0):
     and round to it; keep a set already made for this look."""
     from heatsoak.plugin.export.actions import movie_spec  # export builds the spec of what the view shows
 
-    key = look_key(panel, run.id, None if diff is None else diff.id)
-    pics = current(panel, run.id, None if diff is None else diff.id)
+    diff_id = None if diff is None else diff.id
+    key = look_key(panel, run.id, diff_id)
+    pics = current(panel, run.id, diff_id, key)
     if pics is not None:
         return pics
     drop(panel)
